@@ -1,0 +1,646 @@
+"""Compiled kernels: the two statistics at infinite degrees of freedom, their
+piecewise Chebyshev tables, and the scale mixture over the chi distribution.
+
+Both follow-up distributions have the form
+
+    P(M / s > c),   s = sqrt(chi^2_nu / nu) independent of M,
+
+where M is the range of k independent standard normals (studentized range) or
+the maximum of p correlated normals with product correlation (many-to-one).
+Their upper tail at nu = infinity, L(w) = log P(M > w), is tabulated once per
+shape on Chebyshev panels in w (filled lazily, panel by panel), and the finite
+nu probability is the one-dimensional mixture
+
+    P(M / s > c) = integral over t of g_nu(t) * exp(L(c e^t)) dt,    s = e^t,
+
+computed by adaptive Gauss-Kronrod on a window found around the peak of the
+log-concave integrand. All work is in logarithms, so that tail probabilities
+far below 1e-300 keep their relative accuracy until they underflow.
+
+References
+----------
+Copenhaver, M. D. and Holland, B. (1988). Computation of the distribution of
+the maximum studentized range statistic with application to multiple
+significance testing of simple effects. J. Statist. Comput. Simul. 30, 1-15
+(the range integral and the chi mixture).
+Dunnett, C. W. (1955). A multiple comparison procedure for comparing several
+treatments with a control. JASA 50, 1096-1121; Dunnett, C. W. (1989).
+Algorithm AS 251: multivariate normal probability integrals with product
+correlation structure. Applied Statistics 38, 564-579 (the reduction of the
+p-variate probability to one integral over the shared normal variable).
+"""
+
+from __future__ import annotations
+
+import math
+
+import numpy as np
+from numba import njit
+
+from familywise.stats.distributions._numerics import (
+    LOG_SQRT_2PI,
+    cheb_panel,
+    find_panel,
+    adaptive_panels,
+    fixed_panels,
+    integrate_exp,
+    log_ndtr,
+    log_normal_pdf,
+    ndtr,
+)
+
+KIND_RANGE = 0
+KIND_MAX_ABS = 1  # two-sided many-to-one: max_i |Y_i|
+KIND_MAX = 2  # one-sided many-to-one: max_i Y_i
+
+PANEL_NODES = 16
+
+def _hermite_rule(n: int) -> tuple[tuple[float, ...], tuple[float, ...]]:
+    """Gauss-Hermite nodes and log weights for the standard normal density.
+    Tuples, not arrays: numba freezes them as constants and can cache the code."""
+    z, w = np.polynomial.hermite_e.hermegauss(n)
+    return tuple(float(x) for x in z), tuple(float(x) for x in np.log(w / math.sqrt(2.0 * math.pi)))
+
+
+# 32 nodes for the smooth, centred P(inside) integrand; 64 for the upper tail,
+# where the integrand's mass sits at |z| up to about 8.
+HERMITE_Z, HERMITE_LOG_W = _hermite_rule(64)
+CENTRED_Z, CENTRED_LOG_W = _hermite_rule(64)
+# weight / phi(node) / sqrt(2 pi): the factor of each node of the centred rule
+# when the integrand is written as exp(-z^2 / 2) times the product.
+CENTRED_RATIO = tuple(
+    math.exp(lw + 0.5 * x * x) for x, lw in zip(CENTRED_Z, CENTRED_LOG_W, strict=True)
+)
+
+
+# --------------------------------------------------------------------------
+# The statistics at nu = infinity
+# --------------------------------------------------------------------------
+
+
+@njit(cache=True)
+def _range_log_integrand(z, params):
+    """log of k phi(z) [B(z)^(k-1) - (B(z) - B(z+w))^(k-1)], B the upper normal
+    tail: the density that the smallest of k normals is z and the largest
+    exceeds z + w."""
+    k = params[0]
+    w = params[1]
+    log_b = log_ndtr(-z)
+    ratio = math.exp(log_ndtr(-(z + w)) - log_b)
+    if ratio >= 1.0:
+        return log_normal_pdf(z) + math.log(k) + (k - 1.0) * log_b
+    term = -math.expm1((k - 1.0) * math.log1p(-ratio))
+    if term <= 0.0:
+        return -math.inf
+    return math.log(k) + log_normal_pdf(z) + (k - 1.0) * log_b + math.log(term)
+
+
+@njit(cache=True)
+def range_log_sf(k, w):
+    """log P(R > w) for the range R of k independent standard normals."""
+    if w <= 0.0:
+        return 0.0
+    params = np.array([float(k), w])
+    lower = min(-0.5 * w, -3.0) - 10.0
+    return integrate_exp(_range_log_integrand, params, lower, 9.0, 12, 1e-13)
+
+
+@njit(cache=True, inline="always")
+def _log_inside(two_sided, lam, tau, w, z):
+    """log P(|Y| <= w | Z0 = z) (two-sided) or log P(Y <= w | Z0 = z), for
+    Y = lam Z0 + tau Z."""
+    hi = (w - lam * z) / tau
+    if not two_sided:
+        return log_ndtr(hi)
+    lo = (-w - lam * z) / tau
+    if lo > 0.0:
+        inside = ndtr(-lo) - ndtr(-hi)
+    elif hi < 0.0:
+        inside = ndtr(hi) - ndtr(lo)
+    else:
+        outside = ndtr(-hi) + ndtr(lo)
+        if outside < 0.5:
+            return math.log1p(-outside)
+        inside = ndtr(hi) - ndtr(lo)
+    return math.log(inside) if inside > 0.0 else -math.inf
+
+
+@njit(cache=True)
+def _sum_log_inside(two_sided, params, w, z):
+    u = int(params[0])
+    total = 0.0
+    for i in range(u):
+        lam = params[1 + i]
+        total += params[1 + u + i] * _log_inside(two_sided, lam, math.sqrt(1.0 - lam * lam), w, z)
+    return total
+
+
+@njit(cache=True, inline="always")
+def _prod_inside(two_sided, lam, tau, mult, w, z):
+    """prod_i P(inside_i | z)^m_i without logarithms (the bulk, not the tail)."""
+    prod = 1.0
+    for i in range(lam.size):
+        hi = (w - lam[i] * z) / tau[i]
+        if two_sided:
+            lo = (-w - lam[i] * z) / tau[i]
+            inside = ndtr(-lo) - ndtr(-hi) if lo > 0.0 else ndtr(hi) - ndtr(lo)
+        else:
+            inside = ndtr(hi)
+        for _ in range(mult[i]):
+            prod *= inside
+    return prod
+
+
+@njit(cache=True, inline="always")
+def _log_prod_inside_tail(two_sided, lam, tau, mult, w, z):
+    """log prod_i P(inside_i | z)^m_i from the small outside probabilities,
+    accurate when the product is close to 1 (the upper tail)."""
+    total = 0.0
+    for i in range(lam.size):
+        hi = (w - lam[i] * z) / tau[i]
+        outside = ndtr(-hi)
+        if two_sided:
+            outside += ndtr((-w - lam[i] * z) / tau[i])
+        if outside < 1e-5:
+            log_inside = -outside * (1.0 + outside * (0.5 + outside / 3.0))
+        elif outside < 1.0:
+            log_inside = math.log1p(-outside)
+        else:
+            return -math.inf
+        total += mult[i] * log_inside
+    return total
+
+
+@njit(cache=True)
+def _inside_peak(two_sided, params, w):
+    """Mode and curvature scale of the log-concave integrand
+    phi(z) prod_i P(inside_i | z), found by Newton steps on its log."""
+    if two_sided:
+        # Even in z: the mode is 0; curvature from the closed form of
+        # -d^2/dz^2 log(Phi(a) - Phi(-a)) at z = 0, a = w / tau.
+        u = int(params[0])
+        curvature = 1.0
+        for i in range(u):
+            lam = params[1 + i]
+            tau = math.sqrt(1.0 - lam * lam)
+            a = w / tau
+            inside = 2.0 * ndtr(a) - 1.0 if a > 1e-8 else 2.0 * a * 0.3989422804014327
+            ratio = a * math.exp(log_normal_pdf(a)) / inside if a > 1e-8 else 0.5
+            curvature += params[1 + u + i] * 2.0 * (lam / tau) ** 2 * ratio
+        return 0.0, 1.0 / math.sqrt(curvature)
+    u = int(params[0])
+    z = 0.0
+    curvature = 1.0
+    for _ in range(30):
+        slope = -z
+        curvature = 1.0
+        for i in range(u):
+            lam = params[1 + i]
+            m = params[1 + u + i]
+            tau = math.sqrt(1.0 - lam * lam)
+            a = (w - lam * z) / tau
+            mills = math.exp(log_normal_pdf(a) - log_ndtr(a))
+            slope -= m * (lam / tau) * mills
+            curvature += m * (lam / tau) ** 2 * mills * (a + mills)
+        step = slope / curvature
+        z += step
+        if abs(step) < 1e-10:
+            break
+    return z, 1.0 / math.sqrt(curvature)
+
+
+@njit(cache=True)
+def _max_log_sf_hermite(two_sided, params, w):
+    """Gauss-Hermite evaluation (see max_log_sf)."""
+    u = int(params[0])
+    lam = params[1 : 1 + u].copy()
+    tau = np.sqrt(1.0 - lam * lam)
+    mult = np.empty(u, dtype=np.int64)
+    bonferroni = 0.0
+    for i in range(u):
+        mult[i] = int(params[1 + u + i])
+        bonferroni += mult[i] * (2.0 if two_sided else 1.0) * ndtr(-w)
+    if bonferroni < 0.05:
+        return _max_log_sf_upper_tail(two_sided, lam, tau, mult, w)
+    centre, scale = _inside_peak(two_sided, params, w)
+    n = len(CENTRED_Z)
+    # P(inside) by Gauss-Hermite centred on the mode and scaled to the
+    # curvature of the log-concave integrand (adaptive Gauss-Hermite).
+    inside = 0.0
+    if two_sided:
+        # The integrand is even: the 32 positive nodes, counted twice.
+        for j in range(n // 2):
+            x = CENTRED_Z[j]
+            z = scale * x
+            inside += 2.0 * CENTRED_RATIO[j] * math.exp(-0.5 * z * z) * _prod_inside(
+                two_sided, lam, tau, mult, w, z
+            )
+    else:
+        for j in range(n):
+            x = CENTRED_Z[j]
+            z = centre + scale * x
+            inside += CENTRED_RATIO[j] * math.exp(-0.5 * z * z) * _prod_inside(
+                two_sided, lam, tau, mult, w, z
+            )
+    inside *= scale
+    if inside <= 0.9:
+        return math.log1p(-min(inside, 1.0))
+    return _max_log_sf_upper_tail(two_sided, lam, tau, mult, w)
+
+
+@njit(cache=True)
+def _max_log_sf_upper_tail(two_sided, lam, tau, mult, w):
+    """log P(outside) by plain Gauss-Hermite, for relative accuracy in the
+    upper tail."""
+    n = len(HERMITE_Z)
+    m = n // 2 if two_sided else n
+    logs = np.empty(m)
+    best = -math.inf
+    for j in range(m):
+        outside = -math.expm1(_log_prod_inside_tail(two_sided, lam, tau, mult, w, HERMITE_Z[j]))
+        logs[j] = HERMITE_LOG_W[j] + (math.log(outside) if outside > 0.0 else -math.inf)
+        best = max(best, logs[j])
+    if best == -math.inf:
+        return -math.inf
+    acc = 0.0
+    for j in range(m):
+        acc += math.exp(logs[j] - best)
+    if two_sided:
+        acc *= 2.0
+    return best + math.log(acc)
+
+
+@njit(cache=True)
+def _max_adaptive_integrand(z, params):
+    two_sided = params[0] > 0.5
+    w = params[1]
+    outside = -math.expm1(_sum_log_inside(two_sided, params[2:], w, z))
+    if outside <= 0.0:
+        return -math.inf
+    return log_normal_pdf(z) + math.log(outside)
+
+
+@njit(cache=True)
+def max_log_sf(two_sided, params, w):
+    """log P(max_i |Y_i| > w) or log P(max_i Y_i > w) for standard normals
+    Y_i = lam_i Z0 + sqrt(1 - lam_i^2) Z_i (product correlation lam_i lam_j).
+
+    ``params`` = [u, lam_1..lam_u, m_1..m_u]: the distinct lambdas and how many
+    comparisons share each. With no |lam| above 0.9, Gauss-Hermite
+    over the shared variable Z0: adaptive (centred and scaled on the
+    log-concave integrand) for P(inside), plain for P(outside) in the upper
+    tail. Larger |lam| give sharper integrands and go to adaptive
+    Gauss-Kronrod.
+    """
+    if two_sided and w <= 0.0:
+        return 0.0
+    u = int(params[0])
+    lam_max = 0.0
+    for i in range(u):
+        lam_max = max(lam_max, abs(params[1 + i]))
+    if lam_max <= 0.9:
+        return _max_log_sf_hermite(two_sided, params, w)
+    full = np.empty(params.size + 2)
+    full[0] = 1.0 if two_sided else 0.0
+    full[1] = w
+    full[2:] = params
+    reach = lam_max * abs(w) + 12.0
+    return integrate_exp(_max_adaptive_integrand, full, -reach, reach, 24, 1e-12)
+
+
+@njit(cache=True)
+def statistic_log_sf(kind, params, w):
+    if kind == KIND_RANGE:
+        return range_log_sf(params[0], w)
+    return max_log_sf(kind == KIND_MAX_ABS, params, w)
+
+
+# --------------------------------------------------------------------------
+# Lazily filled piecewise Chebyshev table of L(w) = log P(M > w)
+# --------------------------------------------------------------------------
+
+
+@njit(cache=True)
+def _fill_panel(table, j):
+    edges, coef, done, kind, params, fit, nodes, _ = table
+    a = edges[j]
+    b = edges[j + 1]
+    n = nodes.size
+    values = np.empty(n)
+    for i in range(n):
+        values[i] = statistic_log_sf(kind, params, 0.5 * (a + b) + 0.5 * (b - a) * nodes[i])
+    for r in range(n):
+        acc = 0.0
+        for i in range(n):
+            acc += fit[r, i] * values[i]
+        coef[j, r] = acc
+    done[j] = True
+
+
+@njit(cache=True, inline='always')
+def _panel_value(table, j, w):
+    """L(w) from panel j, filling the panel on first use."""
+    if not table[2][j]:
+        _fill_panel(table, j)
+    return cheb_panel(table[0], table[1], j, w)
+
+
+@njit(cache=True, inline='always')
+def table_log_sf(table, w):
+    """L(w) = log P(M > w) from the table.
+
+    Beyond the last edge L follows the Gaussian tail of the statistic's
+    widest single comparison (scale ``tail_scale``), matched at the edge;
+    below the first edge (one-sided statistics only) the lower tail
+    P(M <= w) is at most Phi(w) and is continued in proportion to it.
+    """
+    edges = table[0]
+    last = edges.size - 1
+    if w >= edges[last]:
+        tail_scale = table[7]
+        edge_value = _panel_value(table, last - 1, edges[last])
+        return edge_value + log_ndtr(-w / tail_scale) - log_ndtr(-edges[last] / tail_scale)
+    if w <= edges[0]:
+        edge_value = _panel_value(table, 0, edges[0])
+        return edge_value * math.exp(log_ndtr(w) - log_ndtr(edges[0]))
+    return _panel_value(table, find_panel(edges, w), w)
+
+
+# --------------------------------------------------------------------------
+# The chi mixture
+# --------------------------------------------------------------------------
+
+
+@njit(cache=True)
+def _stirling_remainder(x):
+    """lgamma(x) - [(x - 1/2) log x - x + log sqrt(2 pi)]."""
+    if x < 8.0:
+        return math.lgamma(x) - ((x - 0.5) * math.log(x) - x + LOG_SQRT_2PI)
+    inv = 1.0 / x
+    inv2 = inv * inv
+    return inv * (1.0 / 12.0 - inv2 * (1.0 / 360.0 - inv2 * (1.0 / 1260.0 - inv2 / 1680.0)))
+
+
+@njit(cache=True)
+def _chi_log_peak(nu):
+    """log density of t = log s at t = 0, s = sqrt(chi^2_nu / nu)."""
+    return 0.5 * math.log(nu / math.pi) - _stirling_remainder(0.5 * nu)
+
+
+@njit(cache=True, inline='always')
+def _chi_drop(t):
+    """(e^{2t} - 1 - 2t) / 2: the log density of t falls by nu times this."""
+    if abs(t) < 1e-3:
+        return t * t * (1.0 + t * (2.0 / 3.0 + t / 3.0))
+    return 0.5 * (math.expm1(2.0 * t) - 2.0 * t)
+
+
+@njit(cache=True)
+def _chi_drop_inverse(level, side):
+    """t on the given side of 0 (side = -1 or +1) where _chi_drop(t) = level."""
+    if side > 0:
+        t = 0.5 * math.log1p(2.0 * level) + 0.5
+    else:
+        t = -level - 0.5
+    for _ in range(60):
+        f = _chi_drop(t) - level
+        step = f / math.expm1(2.0 * t)
+        t -= step
+        if side > 0 and t <= 0.0:
+            t = 1e-6
+        if side < 0 and t >= 0.0:
+            t = -1e-6
+        if abs(step) <= 1e-12 * (1.0 + abs(t)):
+            break
+    return t
+
+
+@njit(cache=True, inline='always')
+def _mixture_log_integrand(t, args):
+    table, c, nu, log_peak, upper = args
+    value = log_peak - nu * _chi_drop(t)
+    w = c * math.exp(t)
+    tail = table_log_sf(table, w)
+    if upper:
+        return value + tail
+    if tail >= 0.0:
+        return -math.inf
+    return value + math.log(-math.expm1(tail))
+
+
+@njit(cache=True)
+def _golden_max(h, args, a, b):
+    """Maximum of a unimodal h on [a, b] by golden-section search."""
+    ratio = 0.5 * (math.sqrt(5.0) - 1.0)
+    x1 = b - ratio * (b - a)
+    x2 = a + ratio * (b - a)
+    f1 = h(x1, args)
+    f2 = h(x2, args)
+    for _ in range(48):
+        if f1 < f2:
+            a = x1
+            x1 = x2
+            f1 = f2
+            x2 = a + ratio * (b - a)
+            f2 = h(x2, args)
+        else:
+            b = x2
+            x2 = x1
+            f2 = f1
+            x1 = b - ratio * (b - a)
+            f1 = h(x1, args)
+        if b - a < 1e-4 * (1.0 + abs(a)):
+            break
+    if f1 > f2:
+        return x1, f1
+    return x2, f2
+
+
+DROP = 40.0
+RTOL = 1e-11
+SCAN = 24
+
+
+@njit(cache=True)
+def _mixture_window(table, c, nu, upper, w_median):
+    """Peak of the log-concave mixture integrand in t and the interval around
+    it outside which the integrand is below exp(-DROP) of its peak."""
+    log_peak = _chi_log_peak(nu)
+    args = (table, c, nu, log_peak, upper)
+    sigma = 1.0 / math.sqrt(2.0 * nu)
+    t_lo = _chi_drop_inverse(DROP / nu, -1)
+    t_hi = _chi_drop_inverse(DROP / nu, 1)
+    if c != 0.0:
+        t_c = math.log(w_median / abs(c))
+        t_lo = min(t_lo, t_c - 4.0 - DROP / nu)
+        t_hi = max(t_hi, min(t_c + 4.0, _chi_drop_inverse((DROP + 40.0) / nu, 1)))
+    # A coarse scan (uniform, plus a few points across the chi peak at t = 0)
+    # brackets the maximum; golden section refines it.
+    best_t = 0.0
+    best = -math.inf
+    spacing = (t_hi - t_lo) / (SCAN - 1)
+    step = spacing
+    for i in range(SCAN + 9):
+        if i < SCAN:
+            t = t_lo + spacing * i
+        else:
+            t = sigma * (i - SCAN - 4)
+        if log_peak - nu * _chi_drop(t) < best - DROP:
+            continue
+        v = _mixture_log_integrand(t, args)
+        if v > best:
+            best = v
+            best_t = t
+            step = spacing if i < SCAN else sigma
+    if best == -math.inf:
+        return args, 0.0, -math.inf, 0.0, 0.0
+    peak_t, peak = _golden_max(
+        _mixture_log_integrand, args, max(t_lo, best_t - step), min(t_hi, best_t + step)
+    )
+    if peak < best:
+        peak_t = best_t
+        peak = best
+    left = _edge(args, peak_t, peak, -step / 4.0, t_lo - 200.0)
+    right = _edge(args, peak_t, peak, step / 4.0, t_hi + 50.0)
+    return args, peak_t, peak, left, right
+
+
+@njit(cache=True)
+def _edge(args, peak_t, peak, first_step, limit):
+    """Point beyond which the integrand stays below exp(-DROP) of its peak
+    (log-concavity): doubling steps bracket it, a few bisections tighten it."""
+    inner = peak_t
+    outer = peak_t + first_step
+    while _mixture_log_integrand(outer, args) > peak - DROP:
+        if (first_step < 0.0 and outer < limit) or (first_step > 0.0 and outer > limit):
+            return outer
+        inner = outer
+        outer = peak_t + 2.0 * (outer - peak_t)
+    for _ in range(4):
+        mid = 0.5 * (inner + outer)
+        if _mixture_log_integrand(mid, args) > peak - DROP:
+            inner = mid
+        else:
+            outer = mid
+    return outer
+
+
+@njit(cache=True)
+def _mixture_log(table, c, nu, upper, w_median):
+    """log of the mixture integral of P(M > c s) (upper) or P(M <= c s)."""
+    args, peak_t, peak, left, right = _mixture_window(table, c, nu, upper, w_median)
+    if peak == -math.inf:
+        return -math.inf
+    lower_part = adaptive_panels(_mixture_log_integrand, args, left, peak_t, 1, RTOL, peak)[0]
+    upper_part = adaptive_panels(_mixture_log_integrand, args, peak_t, right, 1, RTOL, peak)[0]
+    return peak + math.log(math.exp(lower_part - peak) + math.exp(upper_part - peak))
+
+
+@njit(cache=True)
+def mixture_log_sf(table, c, nu, w_median):
+    """log P(M / s > c) and log P(M / s <= c), nu > 0 (nu = inf: no mixing)."""
+    if nu == math.inf:
+        upper = table_log_sf(table, c)
+        return upper, math.log(-math.expm1(upper)) if upper < 0.0 else -math.inf
+    upper = _mixture_log(table, c, nu, True, w_median)
+    if upper < math.log(0.5):
+        return upper, math.log1p(-math.exp(upper))
+    lower = _mixture_log(table, c, nu, False, w_median)
+    return math.log1p(-math.exp(lower)), lower
+
+
+@njit(cache=True)
+def mixture_log_sf_many(table, c, nu, w_median):
+    n = c.size
+    upper = np.empty(n)
+    lower = np.empty(n)
+    for i in range(n):
+        upper[i], lower[i] = mixture_log_sf(table, c[i], nu[i], w_median)
+    return upper, lower
+
+
+@njit(cache=True)
+def table_quantile(table, log_alpha, lo, hi):
+    """w with L(w) = log alpha at nu = infinity, by bisection on the table."""
+    for _ in range(200):
+        mid = 0.5 * (lo + hi)
+        if table_log_sf(table, mid) > log_alpha:
+            lo = mid
+        else:
+            hi = mid
+        if hi - lo <= 1e-15 * max(abs(hi), 1e-300):
+            break
+    return 0.5 * (lo + hi)
+
+
+@njit(cache=True)
+def _planned_log_sf(plan, table, c, nu, log_peak):
+    """log P(M / s > c) by the fixed rule of a plan made at c0: the panels,
+    moved by log(c0 / c) so that w = c e^t meets the same table points."""
+    c0, lo, hi, n, shift = plan
+    args = (table, c, nu, log_peak, True)
+    return fixed_panels(_mixture_log_integrand, args, lo, hi, n, math.log(c0 / c), shift)
+
+
+@njit(cache=True)
+def _make_plan(table, c0, nu, w_median):
+    args, peak_t, peak, left, right = _mixture_window(table, c0, nu, True, w_median)
+    _, lo1, hi1, n1 = adaptive_panels(_mixture_log_integrand, args, left, peak_t, 2, 1e-13, peak)
+    _, lo2, hi2, n2 = adaptive_panels(_mixture_log_integrand, args, peak_t, right, 2, 1e-13, peak)
+    lo = np.concatenate((lo1[:n1], lo2[:n2]))
+    hi = np.concatenate((hi1[:n1], hi2[:n2]))
+    return (c0, lo, hi, n1 + n2, peak)
+
+
+@njit(cache=True)
+def mixture_quantile(table, log_alpha, nu, w_median, upper_start):
+    """c > 0 with P(M / s > c) = alpha (alpha <= 1/2).
+
+    The starting value is the nu = infinity quantile inflated by the familiar
+    first-order t correction. The adaptive rule of one evaluation near the
+    root is then frozen (its panels moved with c, see _planned_log_sf), which
+    makes log P a smooth function of c, and secant steps on log c converge
+    to full precision; a new plan is made if the root wanders far from c0.
+    """
+    w_alpha = table_quantile(table, log_alpha, 0.0, upper_start)
+    if nu == math.inf:
+        return w_alpha
+    if w_alpha < 1e-3:
+        # A quantile at (or next to) zero: plain bisection in c.
+        lo = 0.0
+        hi = 1.0
+        while mixture_log_sf(table, hi, nu, w_median)[0] > log_alpha:
+            hi *= 2.0
+        for _ in range(200):
+            mid = 0.5 * (lo + hi)
+            if mixture_log_sf(table, mid, nu, w_median)[0] > log_alpha:
+                lo = mid
+            else:
+                hi = mid
+            if hi - lo <= 1e-15 * hi:
+                break
+        return 0.5 * (lo + hi)
+    c = w_alpha * (1.0 + (0.5 * w_alpha * w_alpha + 1.0) / (4.0 * nu))
+    log_peak = _chi_log_peak(nu)
+    plan = _make_plan(table, c, nu, w_median)
+    x0 = math.log(c)
+    f0 = _planned_log_sf(plan, table, c, nu, log_peak) - log_alpha
+    x1 = x0 + (0.01 if f0 > 0.0 else -0.01)
+    for _ in range(60):
+        c1 = math.exp(x1)
+        if abs(math.log(c1 / plan[0])) > 0.05:
+            plan = _make_plan(table, c1, nu, w_median)
+            f0 = _planned_log_sf(plan, table, math.exp(x0), nu, log_peak) - log_alpha
+        f1 = _planned_log_sf(plan, table, c1, nu, log_peak) - log_alpha
+        if f1 == f0:
+            break
+        x2 = x1 - f1 * (x1 - x0) / (f1 - f0)
+        step = x2 - x1
+        if abs(step) > 0.5:
+            x2 = x1 + (0.5 if step > 0 else -0.5)
+        x0 = x1
+        f0 = f1
+        x1 = x2
+        if abs(x1 - x0) < 1e-15:
+            break
+    return math.exp(x1)
