@@ -41,9 +41,6 @@ from familywise.stats.distributions._numerics import (
     LOG_SQRT_2PI,
     cheb_panel,
     find_panel,
-    adaptive_panels,
-    fixed_panels,
-    integrate_exp,
     log_ndtr,
     log_normal_pdf,
     ndtr,
@@ -53,7 +50,39 @@ KIND_RANGE = 0
 KIND_MAX_ABS = 1  # two-sided many-to-one: max_i |Y_i|
 KIND_MAX = 2  # one-sided many-to-one: max_i Y_i
 
+# Integrands of the adaptive quadrature, chosen by an integer so that the
+# compiled code takes no function arguments and can be cached on disk.
+INTEGRAND_RANGE = 0  # inner integral of the range, in z
+INTEGRAND_MAX = 1  # inner integral of the many-to-one maximum, in z
+INTEGRAND_UPPER = 2  # chi mixture of P(M > c s), in t = log s
+INTEGRAND_LOWER = 3  # chi mixture of P(M <= c s)
+
 PANEL_NODES = 16
+MAX_PANELS = 400
+
+# Gauss-Kronrod 21-point rule on [-1, 1] (QUADPACK qk21; Piessens et al. 1983):
+# Kronrod abscissae (every second one is a 10-point Gauss node), weights.
+_XGK = (
+    0.995657163025808080735527280689003, 0.973906528517171720077964012084452,
+    0.930157491355708226001207180059508, 0.865063366688984510732096688423493,
+    0.780817726586416897063717578345042, 0.679409568299024406234327365114874,
+    0.562757134668604683339000099272694, 0.433395394129247190799265943165784,
+    0.294392862701460198131126603103866, 0.148874338981631210884826001129720,
+    0.000000000000000000000000000000000,
+)
+_WGK = (
+    0.011694638867371874278064396062192, 0.032558162307964727478818972459390,
+    0.054755896574351996031381300244580, 0.075039674810919952767043140916190,
+    0.093125454583697605535065465083366, 0.109387158802297641899210590325805,
+    0.123491976262065851077600725055197, 0.134709217311473325928054001771707,
+    0.142775938577060080797094273138717, 0.147739104901338491374841515972068,
+    0.149445554002916905664936468389821,
+)
+_WG = (
+    0.066671344308688137593568809893332, 0.149451349150580593145776339657697,
+    0.219086362515982043995534934228163, 0.269266719309996355091226921569469,
+    0.295524224714752870173892994651338,
+)
 
 def _hermite_rule(n: int) -> tuple[tuple[float, ...], tuple[float, ...]]:
     """Gauss-Hermite nodes and log weights for the standard normal density.
@@ -71,6 +100,132 @@ CENTRED_Z, CENTRED_LOG_W = _hermite_rule(64)
 CENTRED_RATIO = tuple(
     math.exp(lw + 0.5 * x * x) for x, lw in zip(CENTRED_Z, CENTRED_LOG_W, strict=True)
 )
+
+
+# A table is a tuple (edges, coef, kind, params, tail_scale): the piecewise
+# Chebyshev series of L(w) on [edges[0], edges[-1]], and how to continue it.
+_NO_TABLE = (np.zeros(2), np.zeros((1, 1)), 0, np.zeros(1), 1.0)
+
+
+# --------------------------------------------------------------------------
+# Adaptive Gauss-Kronrod over log integrands
+# --------------------------------------------------------------------------
+
+
+@njit(cache=True)
+def _integrand(kind, x, params, table):
+    """log of the integrand chosen by ``kind`` (see the INTEGRAND_ constants)."""
+    if kind == INTEGRAND_RANGE:
+        return _range_log_integrand(x, params)
+    if kind == INTEGRAND_MAX:
+        return _max_adaptive_integrand(x, params)
+    return _mixture_log_integrand(x, params, table, kind == INTEGRAND_UPPER)
+
+
+@njit(cache=True)
+def _gk21(kind, params, table, shift, a, b):
+    """Kronrod estimate and QUADPACK-style error of the integral of
+    exp(log integrand - shift) on [a, b]."""
+    centre = 0.5 * (a + b)
+    half = 0.5 * (b - a)
+    fv1 = np.empty(10)
+    fv2 = np.empty(10)
+    fc = math.exp(_integrand(kind, centre, params, table) - shift)
+    resk = fc * _WGK[10]
+    resg = 0.0
+    resabs = abs(resk)
+    for j in range(10):
+        dx = half * _XGK[j]
+        f1 = math.exp(_integrand(kind, centre - dx, params, table) - shift)
+        f2 = math.exp(_integrand(kind, centre + dx, params, table) - shift)
+        fv1[j] = f1
+        fv2[j] = f2
+        resk += _WGK[j] * (f1 + f2)
+        resabs += _WGK[j] * (abs(f1) + abs(f2))
+        if j % 2 == 1:
+            resg += _WG[j // 2] * (f1 + f2)
+    mean = 0.5 * resk
+    resasc = _WGK[10] * abs(fc - mean)
+    for j in range(10):
+        resasc += _WGK[j] * (abs(fv1[j] - mean) + abs(fv2[j] - mean))
+    err = abs((resk - resg) * half)
+    resasc *= abs(half)
+    if resasc != 0.0 and err != 0.0:
+        err = resasc * min(1.0, (200.0 * err / resasc) ** 1.5)
+    floor = 50.0 * 2.220446049250313e-16 * resabs * abs(half)
+    if err < floor:
+        err = floor
+    return resk * half, err
+
+
+@njit(cache=True)
+def adaptive_panels(kind, params, table, a, b, n_init, rtol, shift):
+    """Adaptive Gauss-Kronrod of exp(log integrand - shift) on [a, b].
+
+    Panels are bisected, largest error first, until the error estimate falls
+    below ``rtol`` times the integral or the panel budget is spent. Returns
+    the log of the integral and the final panels (lo, hi, count), which a
+    caller may reuse as a fixed rule for nearby integrands.
+    """
+    lo = np.empty(MAX_PANELS)
+    hi = np.empty(MAX_PANELS)
+    val = np.empty(MAX_PANELS)
+    err = np.empty(MAX_PANELS)
+    n = n_init
+    for i in range(n):
+        lo[i] = a + (b - a) * i / n
+        hi[i] = a + (b - a) * (i + 1) / n
+        val[i], err[i] = _gk21(kind, params, table, shift, lo[i], hi[i])
+    total = 0.0
+    while True:
+        total = 0.0
+        total_err = 0.0
+        worst = 0
+        for i in range(n):
+            total += val[i]
+            total_err += err[i]
+            if err[i] > err[worst]:
+                worst = i
+        if total_err <= rtol * total or n + 1 >= MAX_PANELS:
+            break
+        mid = 0.5 * (lo[worst] + hi[worst])
+        lo[n] = mid
+        hi[n] = hi[worst]
+        hi[worst] = mid
+        val[worst], err[worst] = _gk21(kind, params, table, shift, lo[worst], hi[worst])
+        val[n], err[n] = _gk21(kind, params, table, shift, lo[n], hi[n])
+        n += 1
+    log_total = shift + math.log(total) if total > 0.0 else -math.inf
+    return log_total, lo, hi, n
+
+
+@njit(cache=True)
+def integrate_exp(kind, params, table, a, b, n_init, rtol):
+    """log of the integral of exp(log integrand) over [a, b].
+
+    The log integrand keeps integrands far below the smallest double (tail
+    probabilities) from underflowing: it is scaled by its largest value on a
+    starting grid before exponentiation.
+    """
+    shift = -math.inf
+    n_probe = 8 * n_init + 1
+    for i in range(n_probe):
+        v = _integrand(kind, a + (b - a) * i / (n_probe - 1), params, table)
+        if v > shift:
+            shift = v
+    if shift == -math.inf:
+        return -math.inf
+    return adaptive_panels(kind, params, table, a, b, n_init, rtol, shift)[0]
+
+
+@njit(cache=True)
+def fixed_panels(kind, params, table, lo, hi, n, offset, shift):
+    """log of the Kronrod sum over given panels, each moved by ``offset``: a
+    fixed rule, smooth in the integrand's parameters."""
+    total = 0.0
+    for i in range(n):
+        total += _gk21(kind, params, table, shift, lo[i] + offset, hi[i] + offset)[0]
+    return shift + math.log(total) if total > 0.0 else -math.inf
 
 
 # --------------------------------------------------------------------------
@@ -102,7 +257,7 @@ def range_log_sf(k, w):
         return 0.0
     params = np.array([float(k), w])
     lower = min(-0.5 * w, -3.0) - 10.0
-    return integrate_exp(_range_log_integrand, params, lower, 9.0, 12, 1e-13)
+    return integrate_exp(INTEGRAND_RANGE, params, _NO_TABLE, lower, 9.0, 12, 1e-13)
 
 
 @njit(cache=True, inline="always")
@@ -305,47 +460,45 @@ def max_log_sf(two_sided, params, w):
     full[1] = w
     full[2:] = params
     reach = lam_max * abs(w) + 12.0
-    return integrate_exp(_max_adaptive_integrand, full, -reach, reach, 24, 1e-12)
+    return integrate_exp(INTEGRAND_MAX, full, _NO_TABLE, -reach, reach, 24, 1e-12)
 
 
 @njit(cache=True)
 def statistic_log_sf(kind, params, w):
+    """L(w) = log P(M > w) of a statistic at nu = infinity, computed afresh."""
     if kind == KIND_RANGE:
         return range_log_sf(params[0], w)
     return max_log_sf(kind == KIND_MAX_ABS, params, w)
 
 
+
 # --------------------------------------------------------------------------
-# Lazily filled piecewise Chebyshev table of L(w) = log P(M > w)
+# Piecewise Chebyshev tables of L(w) = log P(M > w)
 # --------------------------------------------------------------------------
 
 
 @njit(cache=True)
-def _fill_panel(table, j):
-    edges, coef, done, kind, params, fit, nodes, _ = table
-    a = edges[j]
-    b = edges[j + 1]
+def fill_table(edges, kind, params, fit, nodes):
+    """Chebyshev coefficients of L(w) on every panel (values at the
+    Chebyshev points of each panel, mapped by the inverse Vandermonde)."""
+    n_panels = edges.size - 1
     n = nodes.size
+    coef = np.empty((n_panels, n))
     values = np.empty(n)
-    for i in range(n):
-        values[i] = statistic_log_sf(kind, params, 0.5 * (a + b) + 0.5 * (b - a) * nodes[i])
-    for r in range(n):
-        acc = 0.0
+    for j in range(n_panels):
+        a = edges[j]
+        b = edges[j + 1]
         for i in range(n):
-            acc += fit[r, i] * values[i]
-        coef[j, r] = acc
-    done[j] = True
+            values[i] = statistic_log_sf(kind, params, 0.5 * (a + b) + 0.5 * (b - a) * nodes[i])
+        for r in range(n):
+            acc = 0.0
+            for i in range(n):
+                acc += fit[r, i] * values[i]
+            coef[j, r] = acc
+    return coef
 
 
-@njit(cache=True, inline='always')
-def _panel_value(table, j, w):
-    """L(w) from panel j, filling the panel on first use."""
-    if not table[2][j]:
-        _fill_panel(table, j)
-    return cheb_panel(table[0], table[1], j, w)
-
-
-@njit(cache=True, inline='always')
+@njit(cache=True, inline="always")
 def table_log_sf(table, w):
     """L(w) = log P(M > w) from the table.
 
@@ -355,15 +508,30 @@ def table_log_sf(table, w):
     P(M <= w) is at most Phi(w) and is continued in proportion to it.
     """
     edges = table[0]
+    coef = table[1]
     last = edges.size - 1
     if w >= edges[last]:
-        tail_scale = table[7]
-        edge_value = _panel_value(table, last - 1, edges[last])
+        tail_scale = table[4]
+        edge_value = cheb_panel(edges, coef, last - 1, edges[last])
         return edge_value + log_ndtr(-w / tail_scale) - log_ndtr(-edges[last] / tail_scale)
     if w <= edges[0]:
-        edge_value = _panel_value(table, 0, edges[0])
+        edge_value = cheb_panel(edges, coef, 0, edges[0])
         return edge_value * math.exp(log_ndtr(w) - log_ndtr(edges[0]))
-    return _panel_value(table, find_panel(edges, w), w)
+    return cheb_panel(edges, coef, find_panel(edges, w), w)
+
+
+@njit(cache=True)
+def table_quantile(table, log_alpha, lo, hi):
+    """w with L(w) = log alpha at nu = infinity, by bisection on the table."""
+    for _ in range(200):
+        mid = 0.5 * (lo + hi)
+        if table_log_sf(table, mid) > log_alpha:
+            lo = mid
+        else:
+            hi = mid
+        if hi - lo <= 1e-15 * max(abs(hi), 1e-300):
+            break
+    return 0.5 * (lo + hi)
 
 
 # --------------------------------------------------------------------------
@@ -387,7 +555,7 @@ def _chi_log_peak(nu):
     return 0.5 * math.log(nu / math.pi) - _stirling_remainder(0.5 * nu)
 
 
-@njit(cache=True, inline='always')
+@njit(cache=True, inline="always")
 def _chi_drop(t):
     """(e^{2t} - 1 - 2t) / 2: the log density of t falls by nu times this."""
     if abs(t) < 1e-3:
@@ -415,12 +583,12 @@ def _chi_drop_inverse(level, side):
     return t
 
 
-@njit(cache=True, inline='always')
-def _mixture_log_integrand(t, args):
-    table, c, nu, log_peak, upper = args
-    value = log_peak - nu * _chi_drop(t)
-    w = c * math.exp(t)
-    tail = table_log_sf(table, w)
+@njit(cache=True, inline="always")
+def _mixture_log_integrand(t, params, table, upper):
+    """log of g_nu(t) P(M > c e^t) (upper) or g_nu(t) P(M <= c e^t);
+    params = [c, nu, log of the chi peak]."""
+    value = params[2] - params[1] * _chi_drop(t)
+    tail = table_log_sf(table, params[0] * math.exp(t))
     if upper:
         return value + tail
     if tail >= 0.0:
@@ -428,27 +596,32 @@ def _mixture_log_integrand(t, args):
     return value + math.log(-math.expm1(tail))
 
 
+DROP = 40.0  # nats below the peak at which the integration window ends
+RTOL = 1e-11
+SCAN = 24
+
+
 @njit(cache=True)
-def _golden_max(h, args, a, b):
-    """Maximum of a unimodal h on [a, b] by golden-section search."""
+def _golden_max(kind, params, table, a, b):
+    """Maximum of the unimodal log integrand on [a, b] by golden section."""
     ratio = 0.5 * (math.sqrt(5.0) - 1.0)
     x1 = b - ratio * (b - a)
     x2 = a + ratio * (b - a)
-    f1 = h(x1, args)
-    f2 = h(x2, args)
+    f1 = _integrand(kind, x1, params, table)
+    f2 = _integrand(kind, x2, params, table)
     for _ in range(48):
         if f1 < f2:
             a = x1
             x1 = x2
             f1 = f2
             x2 = a + ratio * (b - a)
-            f2 = h(x2, args)
+            f2 = _integrand(kind, x2, params, table)
         else:
             b = x2
             x2 = x1
             f2 = f1
             x1 = b - ratio * (b - a)
-            f1 = h(x1, args)
+            f1 = _integrand(kind, x1, params, table)
         if b - a < 1e-4 * (1.0 + abs(a)):
             break
     if f1 > f2:
@@ -456,17 +629,57 @@ def _golden_max(h, args, a, b):
     return x2, f2
 
 
-DROP = 40.0
-RTOL = 1e-11
-SCAN = 24
+@njit(cache=True)
+def _bracket_max(kind, params, table, t, value, step):
+    """An interval around the maximum of the unimodal log integrand, grown
+    by doubling steps from a point ``t`` toward higher values."""
+    right = _integrand(kind, t + step, params, table)
+    left = _integrand(kind, t - step, params, table)
+    if right <= value and left <= value:
+        return t - step, t + step
+    direction = 1.0 if right > left else -1.0
+    previous = t
+    current = t + direction * step
+    current_value = max(right, left)
+    for _ in range(200):
+        step *= 2.0
+        probe = current + direction * step
+        probe_value = _integrand(kind, probe, params, table)
+        if probe_value <= current_value:
+            return (previous, probe) if direction > 0 else (probe, previous)
+        previous = current
+        current = probe
+        current_value = probe_value
+    return (previous, current) if direction > 0 else (current, previous)
+
+
+@njit(cache=True)
+def _edge(kind, params, table, peak_t, peak, first_step, limit):
+    """Point beyond which the integrand stays below exp(-DROP) of its peak
+    (log-concavity): doubling steps bracket it, a few bisections tighten it."""
+    inner = peak_t
+    outer = peak_t + first_step
+    while _integrand(kind, outer, params, table) > peak - DROP:
+        if (first_step < 0.0 and outer < limit) or (first_step > 0.0 and outer > limit):
+            return outer
+        inner = outer
+        outer = peak_t + 2.0 * (outer - peak_t)
+    for _ in range(4):
+        mid = 0.5 * (inner + outer)
+        if _integrand(kind, mid, params, table) > peak - DROP:
+            inner = mid
+        else:
+            outer = mid
+    return outer
 
 
 @njit(cache=True)
 def _mixture_window(table, c, nu, upper, w_median):
-    """Peak of the log-concave mixture integrand in t and the interval around
-    it outside which the integrand is below exp(-DROP) of its peak."""
+    """The log-concave mixture integrand in t: its peak, and the interval
+    outside which it stays below exp(-DROP) of the peak."""
     log_peak = _chi_log_peak(nu)
-    args = (table, c, nu, log_peak, upper)
+    params = np.array([c, nu, log_peak])
+    kind = INTEGRAND_UPPER if upper else INTEGRAND_LOWER
     sigma = 1.0 / math.sqrt(2.0 * nu)
     t_lo = _chi_drop_inverse(DROP / nu, -1)
     t_hi = _chi_drop_inverse(DROP / nu, 1)
@@ -487,66 +700,54 @@ def _mixture_window(table, c, nu, upper, w_median):
             t = sigma * (i - SCAN - 4)
         if log_peak - nu * _chi_drop(t) < best - DROP:
             continue
-        v = _mixture_log_integrand(t, args)
+        v = _integrand(kind, t, params, table)
         if v > best:
             best = v
             best_t = t
             step = spacing if i < SCAN else sigma
     if best == -math.inf:
-        return args, 0.0, -math.inf, 0.0, 0.0
-    peak_t, peak = _golden_max(
-        _mixture_log_integrand, args, max(t_lo, best_t - step), min(t_hi, best_t + step)
-    )
+        return params, kind, 0.0, -math.inf, 0.0, 0.0
+    a, b = _bracket_max(kind, params, table, best_t, best, min(step, sigma))
+    peak_t, peak = _golden_max(kind, params, table, a, b)
     if peak < best:
         peak_t = best_t
         peak = best
-    left = _edge(args, peak_t, peak, -step / 4.0, t_lo - 200.0)
-    right = _edge(args, peak_t, peak, step / 4.0, t_hi + 50.0)
-    return args, peak_t, peak, left, right
-
-
-@njit(cache=True)
-def _edge(args, peak_t, peak, first_step, limit):
-    """Point beyond which the integrand stays below exp(-DROP) of its peak
-    (log-concavity): doubling steps bracket it, a few bisections tighten it."""
-    inner = peak_t
-    outer = peak_t + first_step
-    while _mixture_log_integrand(outer, args) > peak - DROP:
-        if (first_step < 0.0 and outer < limit) or (first_step > 0.0 and outer > limit):
-            return outer
-        inner = outer
-        outer = peak_t + 2.0 * (outer - peak_t)
-    for _ in range(4):
-        mid = 0.5 * (inner + outer)
-        if _mixture_log_integrand(mid, args) > peak - DROP:
-            inner = mid
-        else:
-            outer = mid
-    return outer
+    left = _edge(kind, params, table, peak_t, peak, -step / 4.0, t_lo - 200.0)
+    right = _edge(kind, params, table, peak_t, peak, step / 4.0, t_hi + 50.0)
+    return params, kind, peak_t, peak, left, right
 
 
 @njit(cache=True)
 def _mixture_log(table, c, nu, upper, w_median):
     """log of the mixture integral of P(M > c s) (upper) or P(M <= c s)."""
-    args, peak_t, peak, left, right = _mixture_window(table, c, nu, upper, w_median)
+    params, kind, peak_t, peak, left, right = _mixture_window(table, c, nu, upper, w_median)
     if peak == -math.inf:
         return -math.inf
-    lower_part = adaptive_panels(_mixture_log_integrand, args, left, peak_t, 1, RTOL, peak)[0]
-    upper_part = adaptive_panels(_mixture_log_integrand, args, peak_t, right, 1, RTOL, peak)[0]
+    lower_part = adaptive_panels(kind, params, table, left, peak_t, 1, RTOL, peak)[0]
+    upper_part = adaptive_panels(kind, params, table, peak_t, right, 1, RTOL, peak)[0]
     return peak + math.log(math.exp(lower_part - peak) + math.exp(upper_part - peak))
 
 
 @njit(cache=True)
 def mixture_log_sf(table, c, nu, w_median):
-    """log P(M / s > c) and log P(M / s <= c), nu > 0 (nu = inf: no mixing)."""
+    """log P(M / s > c) and log P(M / s <= c) (nu = inf: no mixing).
+
+    The smaller of the two is integrated (the other follows from it), which
+    keeps the upper tail relative-accurate and the bulk accurate in absolute
+    terms; the nu = infinity value at c tells which is likely smaller.
+    """
     if nu == math.inf:
         upper = table_log_sf(table, c)
         return upper, math.log(-math.expm1(upper)) if upper < 0.0 else -math.inf
-    upper = _mixture_log(table, c, nu, True, w_median)
-    if upper < math.log(0.5):
-        return upper, math.log1p(-math.exp(upper))
+    if table_log_sf(table, c) < math.log(0.5):
+        upper = _mixture_log(table, c, nu, True, w_median)
+        if upper < math.log(0.5):
+            return upper, math.log1p(-math.exp(upper))
     lower = _mixture_log(table, c, nu, False, w_median)
-    return math.log1p(-math.exp(lower)), lower
+    if lower < math.log(0.5):
+        return math.log1p(-math.exp(lower)), lower
+    upper = _mixture_log(table, c, nu, True, w_median)
+    return upper, math.log1p(-math.exp(upper))
 
 
 @njit(cache=True)
@@ -560,33 +761,19 @@ def mixture_log_sf_many(table, c, nu, w_median):
 
 
 @njit(cache=True)
-def table_quantile(table, log_alpha, lo, hi):
-    """w with L(w) = log alpha at nu = infinity, by bisection on the table."""
-    for _ in range(200):
-        mid = 0.5 * (lo + hi)
-        if table_log_sf(table, mid) > log_alpha:
-            lo = mid
-        else:
-            hi = mid
-        if hi - lo <= 1e-15 * max(abs(hi), 1e-300):
-            break
-    return 0.5 * (lo + hi)
-
-
-@njit(cache=True)
 def _planned_log_sf(plan, table, c, nu, log_peak):
     """log P(M / s > c) by the fixed rule of a plan made at c0: the panels,
     moved by log(c0 / c) so that w = c e^t meets the same table points."""
     c0, lo, hi, n, shift = plan
-    args = (table, c, nu, log_peak, True)
-    return fixed_panels(_mixture_log_integrand, args, lo, hi, n, math.log(c0 / c), shift)
+    params = np.array([c, nu, log_peak])
+    return fixed_panels(INTEGRAND_UPPER, params, table, lo, hi, n, math.log(c0 / c), shift)
 
 
 @njit(cache=True)
 def _make_plan(table, c0, nu, w_median):
-    args, peak_t, peak, left, right = _mixture_window(table, c0, nu, True, w_median)
-    _, lo1, hi1, n1 = adaptive_panels(_mixture_log_integrand, args, left, peak_t, 2, 1e-13, peak)
-    _, lo2, hi2, n2 = adaptive_panels(_mixture_log_integrand, args, peak_t, right, 2, 1e-13, peak)
+    params, kind, peak_t, peak, left, right = _mixture_window(table, c0, nu, True, w_median)
+    _, lo1, hi1, n1 = adaptive_panels(kind, params, table, left, peak_t, 2, 1e-13, peak)
+    _, lo2, hi2, n2 = adaptive_panels(kind, params, table, peak_t, right, 2, 1e-13, peak)
     lo = np.concatenate((lo1[:n1], lo2[:n2]))
     hi = np.concatenate((hi1[:n1], hi2[:n2]))
     return (c0, lo, hi, n1 + n2, peak)
@@ -594,7 +781,7 @@ def _make_plan(table, c0, nu, w_median):
 
 @njit(cache=True)
 def mixture_quantile(table, log_alpha, nu, w_median, upper_start):
-    """c > 0 with P(M / s > c) = alpha (alpha <= 1/2).
+    """c >= 0 with P(M / s > c) = alpha (alpha <= 1/2).
 
     The starting value is the nu = infinity quantile inflated by the familiar
     first-order t correction. The adaptive rule of one evaluation near the

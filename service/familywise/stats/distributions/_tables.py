@@ -1,4 +1,4 @@
-"""Construction and bounded caching of the lazily filled tables of L(w)."""
+"""Construction and bounded caching of the tables of L(w) = log P(M > w)."""
 
 from __future__ import annotations
 
@@ -17,38 +17,23 @@ _NODES, _FIT = chebyshev_fit_matrix(kernels.PANEL_NODES)
 _RANGE_EDGES = np.concatenate([np.arange(0.0, 16.0, 1.0), np.arange(16.0, 65.0, 4.0)])
 # Past w = 8 the many-to-one tail is continued by the shape of the union
 # bound (see table_log_sf); its relative error there is below 1e-5 and only
-# reaches p-values under about 1e-14.
+# reaches p-values under about 1e-14. Tables are filled in full when made:
+# 28 panels for the range (once per k), 4 or 7 for the many-to-one.
 _MAX_ABS_EDGES = np.array([0.0, 2.0, 4.0, 6.0, 8.0])
 _MAX_EDGES = np.array([-8.0, -4.0, -2.0, 0.0, 2.0, 4.0, 6.0, 8.0])
 
-Table = tuple  # (edges, coef, done, kind, params, fit, nodes, tail_scale)
+Table = tuple  # (edges, coef, kind, params, tail_scale), see _kernels
 
 
 def _new_table(kind: int, params: np.ndarray, edges: np.ndarray, tail_scale: float) -> Table:
-    n_panels = edges.size - 1
-    return (
-        edges,
-        np.zeros((n_panels, kernels.PANEL_NODES)),
-        np.zeros(n_panels, dtype=np.bool_),
-        kind,
-        np.ascontiguousarray(params, dtype=np.float64),
-        _FIT,
-        _NODES,
-        float(tail_scale),
-    )
+    params = np.ascontiguousarray(params, dtype=np.float64)
+    coef = kernels.fill_table(edges, kind, params, _FIT, _NODES)
+    return (edges, coef, kind, params, float(tail_scale))
 
 
 def _median(table: Table, lo: float, hi: float) -> float:
-    """w with P(M > w) = 1/2, by bisection on the table (fills the panels
-    around the bulk, which every later call needs anyway)."""
-    target = math.log(0.5)
-    for _ in range(60):
-        mid = 0.5 * (lo + hi)
-        if kernels.table_log_sf(table, mid) > target:
-            lo = mid
-        else:
-            hi = mid
-    return 0.5 * (lo + hi)
+    """w with P(M > w) = 1/2 at nu = infinity (locates the bulk for the mixture)."""
+    return float(kernels.table_quantile(table, math.log(0.5), lo, hi))
 
 
 @lru_cache(maxsize=512)

@@ -1,0 +1,138 @@
+"""The application factory."""
+
+from __future__ import annotations
+
+import logging
+from importlib import resources
+from fastapi import FastAPI, Request
+from fastapi.exceptions import RequestValidationError
+from fastapi.openapi.docs import get_swagger_ui_html
+from fastapi.responses import HTMLResponse
+from fastapi.staticfiles import StaticFiles
+from starlette.exceptions import HTTPException as StarletteHTTPException
+
+from familywise import __version__
+from familywise.api.middleware import BodyLimit, RequestContext
+from familywise.api.problems import CATALOGUE, ProblemError, pointer_from_location
+from familywise.api.schemas.common import ItemError
+from familywise.api.settings import Settings
+from familywise.stats.errors import DataError
+
+log = logging.getLogger("familywise")
+
+DESCRIPTION = """\
+familywise answers, for a one-way experiment (a plate or batch of treatments,
+formulations or conditions, each measured in replicate), the question that
+follows the ANOVA: **which groups differ, by how much, and with what
+error-rate guarantee**.
+
+Numbers are computed from their decimal text as written. Errors are RFC 9457
+problem details (`application/problem+json`) with a JSON pointer to the field
+at fault.
+
+*Caution:* familywise supports, and does not replace, a qualified
+statistician and the regulations and local procedures that apply to your
+work.
+"""
+
+
+def _validation_problem(exc: RequestValidationError) -> ProblemError:
+    errors = []
+    for err in exc.errors():
+        location = list(err.get("loc", ()))
+        if location and location[0] == "body":
+            location = location[1:]
+        cause = (err.get("ctx") or {}).get("error")
+        if isinstance(cause, ItemError):
+            location.append(cause.index)
+            message = str(cause)
+        else:
+            message = err.get("msg", "invalid value")
+        errors.append({
+            "pointer": pointer_from_location(location),
+            "rule": err.get("type", "invalid"),
+            "detail": message,
+        })
+    first = errors[0] if errors else {"pointer": "", "rule": "invalid", "detail": "invalid request"}
+    detail = f"{first['pointer'] or 'the body'}: {first['detail']}"
+    if len(errors) > 1:
+        detail += f" (and {len(errors) - 1} more)"
+    return ProblemError("invalid-input", detail, pointer=first["pointer"], rule=first["rule"],
+                        errors=errors)
+
+
+def _install_handlers(app: FastAPI) -> None:
+    @app.exception_handler(ProblemError)
+    async def on_problem(request: Request, exc: ProblemError):
+        return exc.response()
+
+    @app.exception_handler(RequestValidationError)
+    async def on_validation(request: Request, exc: RequestValidationError):
+        return _validation_problem(exc).response()
+
+    @app.exception_handler(DataError)
+    async def on_data(request: Request, exc: DataError):
+        return ProblemError("unanalysable-data", exc.message, pointer=exc.pointer, rule=exc.rule).response()
+
+    @app.exception_handler(StarletteHTTPException)
+    async def on_http(request: Request, exc: StarletteHTTPException):
+        slug = {401: "unauthorized", 404: "not-found", 405: "method-not-allowed",
+                406: "not-acceptable", 413: "body-too-large", 415: "unsupported-media-type"}.get(
+            exc.status_code)
+        if slug is None:
+            slug = "invalid-input" if 400 <= exc.status_code < 500 else "internal-error"
+        problem = ProblemError(slug, str(exc.detail), headers=dict(exc.headers or {}))
+        return problem.response()
+
+    @app.exception_handler(Exception)
+    async def on_bug(request: Request, exc: Exception):
+        log.exception("unhandled error (a bug) on %s %s", request.method, request.url.path)
+        return ProblemError("internal-error", "the service failed on a request it accepted; "
+                            "this is a bug, please report it with the request id").response()
+
+
+def _install_docs(app: FastAPI) -> None:
+    assets = resources.files("familywise.api") / "static" / "vendor" / "swagger-ui"
+    app.mount("/static/docs", StaticFiles(directory=str(assets)), name="docs-assets")
+
+    @app.get("/docs", include_in_schema=False)
+    async def docs() -> HTMLResponse:
+        return get_swagger_ui_html(
+            openapi_url="/openapi.json",
+            title="familywise API",
+            swagger_js_url="/static/docs/swagger-ui-bundle.js",
+            swagger_css_url="/static/docs/swagger-ui.css",
+            swagger_favicon_url="/static/docs/favicon-32x32.png",
+        )
+
+    @app.get("/problems/{slug}", include_in_schema=False)
+    async def problem_type(slug: str) -> HTMLResponse:
+        if slug not in CATALOGUE:
+            raise ProblemError("not-found", f"no problem type {slug!r}")
+        status, title, description = CATALOGUE[slug]
+        return HTMLResponse(f"<h1>{title}</h1><p>HTTP {status}.</p><p>{description}</p>")
+
+
+def create_app(settings: Settings | None = None) -> FastAPI:
+    """The familywise ASGI application."""
+    from familywise.api.routes import ROUTERS
+
+    settings = settings or Settings.from_env()
+    app = FastAPI(
+        title="familywise",
+        version=__version__,
+        description=DESCRIPTION,
+        docs_url=None,
+        redoc_url=None,
+        license_info={"name": "MIT"},
+    )
+    app.state.settings = settings
+    _install_handlers(app)
+    _install_docs(app)
+    for router in ROUTERS:
+        app.include_router(router)
+    # The last middleware added is the outermost: the request id wraps the
+    # body limit so that refusals are logged with their id too.
+    app.add_middleware(BodyLimit, max_bytes=settings.max_body_bytes)
+    app.add_middleware(RequestContext)
+    return app

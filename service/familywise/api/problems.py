@@ -1,0 +1,95 @@
+"""RFC 9457 problem details.
+
+Every refusal is ``application/problem+json`` with ``type`` (a path on this
+service that describes the problem), ``title``, ``status``, ``detail``, and,
+where a field is at fault, ``pointer`` (RFC 6901) and ``rule``. Validation
+failures list every offending field under ``errors``.
+"""
+
+from __future__ import annotations
+
+from dataclasses import dataclass, field
+from typing import Any
+
+import orjson
+from starlette.responses import Response
+
+MEDIA_TYPE = "application/problem+json"
+
+#: slug -> (status, title, description shown at GET /problems/{slug})
+CATALOGUE: dict[str, tuple[int, str, str]] = {
+    "malformed-body": (400, "Malformed request body",
+                       "The body is not valid JSON or CSV, repeats a key, nests too deeply, or "
+                       "uses a NaN or Infinity literal."),
+    "unauthorized": (401, "Missing or invalid API key",
+                     "Send 'Authorization: Bearer <key>' with a key configured on the service."),
+    "not-found": (404, "Not found", "No resource at this path."),
+    "method-not-allowed": (405, "Method not allowed", "This path does not take that method."),
+    "not-acceptable": (406, "Not acceptable", "The service cannot produce the requested media type."),
+    "body-too-large": (413, "Request body too large",
+                       "The body exceeds FAMILYWISE_MAX_BODY_BYTES."),
+    "unsupported-media-type": (415, "Unsupported media type",
+                               "Send application/json (or text/csv where the endpoint says so)."),
+    "invalid-input": (422, "Invalid input",
+                      "A field breaks a rule of the request schema; see errors[]."),
+    "limit-exceeded": (422, "Configured limit exceeded",
+                       "The request asks for more groups, values, contrasts or batch items than "
+                       "the service is configured to accept."),
+    "unanalysable-data": (422, "The data cannot be analysed this way",
+                          "The numbers are well-formed but the method is undefined for them "
+                          "(for example zero within-group variance)."),
+    "computation-timeout": (503, "Computation took too long",
+                            "The computation exceeded FAMILYWISE_COMPUTE_TIMEOUT_SECONDS; retry "
+                            "later or split the request."),
+    "internal-error": (500, "Internal error",
+                       "A bug: the service failed to answer a request it accepted."),
+}
+
+
+@dataclass
+class ProblemError(Exception):
+    """Raise anywhere in the API layer to answer with a problem document."""
+
+    slug: str
+    detail: str
+    pointer: str | None = None
+    rule: str | None = None
+    errors: list[dict[str, Any]] = field(default_factory=list)
+    headers: dict[str, str] = field(default_factory=dict)
+    extra: dict[str, Any] = field(default_factory=dict)
+
+    @property
+    def status(self) -> int:
+        return CATALOGUE[self.slug][0]
+
+    def document(self) -> dict[str, Any]:
+        status, title, _ = CATALOGUE[self.slug]
+        body: dict[str, Any] = {
+            "type": f"/problems/{self.slug}",
+            "title": title,
+            "status": status,
+            "detail": self.detail,
+        }
+        if self.pointer is not None:
+            body["pointer"] = self.pointer
+        if self.rule is not None:
+            body["rule"] = self.rule
+        if self.errors:
+            body["errors"] = self.errors
+        body.update(self.extra)
+        return body
+
+    def response(self) -> Response:
+        return problem_response(self.document(), self.status, self.headers)
+
+
+def problem_response(document: dict[str, Any], status: int, headers: dict[str, str] | None = None) -> Response:
+    return Response(
+        orjson.dumps(document), status_code=status, media_type=MEDIA_TYPE, headers=headers
+    )
+
+
+def pointer_from_location(location: tuple[Any, ...] | list[Any]) -> str:
+    """JSON pointer (RFC 6901) from a pydantic error location."""
+    parts = [str(p).replace("~", "~0").replace("/", "~1") for p in location]
+    return "/" + "/".join(parts) if parts else ""

@@ -1,0 +1,137 @@
+"""The route class every familywise endpoint uses.
+
+It replaces FastAPI's body decoding with :mod:`familywise.api.parsing`
+(exact decimals, duplicate keys refused, CSV where the endpoint allows it),
+checks the media type, and applies the configured size limits before any
+model validation or computation.
+"""
+
+from __future__ import annotations
+
+from collections.abc import Callable, Coroutine
+from typing import Any
+
+import orjson
+from fastapi import Request, Response
+from fastapi.routing import APIRoute
+
+from familywise.api.parsing import CSV_FORMAT_PARAMETERS, parse_csv, parse_json, query_value
+from familywise.api.problems import ProblemError
+from familywise.api.settings import Settings
+
+JSON_TYPES = ("application/json",)
+CSV_TYPES = ("text/csv",)
+
+
+def media_type(request: Request) -> str:
+    return request.headers.get("content-type", "").split(";", 1)[0].strip().lower()
+
+
+def check_limits(obj: Any, settings: Settings, pointer: str = "") -> None:
+    """Refuse requests larger than the configured limits, naming the limit."""
+    if not isinstance(obj, dict):
+        return
+    groups = obj.get("groups")
+    if isinstance(groups, list):
+        if len(groups) > settings.max_groups:
+            raise ProblemError(
+                "limit-exceeded",
+                f"{len(groups)} groups exceed the limit of {settings.max_groups} (FAMILYWISE_MAX_GROUPS)",
+                pointer=f"{pointer}/groups", rule="max_groups",
+            )
+        count = sum(len(g["values"]) for g in groups if isinstance(g, dict) and isinstance(g.get("values"), list))
+        if count > settings.max_values:
+            raise ProblemError(
+                "limit-exceeded",
+                f"{count} values exceed the limit of {settings.max_values} per analysis "
+                "(FAMILYWISE_MAX_VALUES)",
+                pointer=f"{pointer}/groups", rule="max_values",
+            )
+    contrasts = obj.get("contrasts")
+    if isinstance(contrasts, list) and len(contrasts) > settings.max_contrasts:
+        raise ProblemError(
+            "limit-exceeded",
+            f"{len(contrasts)} contrasts exceed the limit of {settings.max_contrasts} "
+            "(FAMILYWISE_MAX_CONTRASTS)",
+            pointer=f"{pointer}/contrasts", rule="max_contrasts",
+        )
+    items = obj.get("items")
+    if isinstance(items, list):
+        if len(items) > settings.max_batch_items:
+            raise ProblemError(
+                "limit-exceeded",
+                f"{len(items)} items exceed the limit of {settings.max_batch_items} "
+                "(FAMILYWISE_MAX_BATCH_ITEMS)",
+                pointer=f"{pointer}/items", rule="max_batch_items",
+            )
+        total = 0
+        for i, item in enumerate(items):
+            if isinstance(item, dict) and isinstance(item.get("request"), dict):
+                req = item["request"]
+                check_limits(req, settings, f"{pointer}/items/{i}/request")
+                groups = req.get("groups")
+                if isinstance(groups, list):
+                    total += sum(len(g["values"]) for g in groups
+                                 if isinstance(g, dict) and isinstance(g.get("values"), list))
+        if total > settings.max_values * 10:
+            raise ProblemError(
+                "limit-exceeded",
+                f"{total} values in one batch exceed ten times the per-analysis limit",
+                pointer=f"{pointer}/items", rule="max_batch_values",
+            )
+
+
+class FamilywiseRoute(APIRoute):
+    """APIRoute with exact JSON decoding, optional CSV, and limits."""
+
+    #: endpoints that also take text/csv bodies set this through openapi_extra
+    def __init__(self, *args: Any, **kwargs: Any) -> None:
+        extra = kwargs.get("openapi_extra") or {}
+        self.accepts_csv = bool(extra.get("x-accepts-csv"))
+        super().__init__(*args, **kwargs)
+
+    def get_route_handler(self) -> Callable[[Request], Coroutine[Any, Any, Response]]:
+        original = super().get_route_handler()
+        accepts_csv = self.accepts_csv
+
+        async def handler(request: Request) -> Response:
+            if request.method in ("POST", "PUT", "PATCH"):
+                await _decode_body(request, accepts_csv)
+            return await original(request)
+
+        return handler
+
+
+async def _decode_body(request: Request, accepts_csv: bool) -> None:
+    kind = media_type(request)
+    raw = await request.body()
+    settings: Settings = request.app.state.settings
+    if kind in JSON_TYPES or (kind == "" and raw[:1] in (b"{", b"[")):
+        obj = parse_json(raw)
+    elif accepts_csv and kind in CSV_TYPES:
+        options = {k: v for k, v in request.query_params.items() if k in CSV_FORMAT_PARAMETERS}
+        obj = parse_csv(raw, options)
+        for key, value in request.query_params.items():
+            if key not in CSV_FORMAT_PARAMETERS:
+                obj[key] = query_value(value)
+    else:
+        allowed = "application/json" + (" or text/csv" if accepts_csv else "")
+        raise ProblemError(
+            "unsupported-media-type",
+            f"content type {kind or '(none)'!r} is not accepted here: send {allowed}",
+            rule="media-type",
+        )
+    check_limits(obj, settings)
+    # FastAPI reads the cached body and JSON of the request object; present
+    # the decoded structure as JSON so that it validates it with the model.
+    request._json = obj
+    if kind != "application/json":
+        headers = [(k, v) for k, v in request.scope["headers"] if k != b"content-type"]
+        headers.append((b"content-type", b"application/json"))
+        request.scope["headers"] = headers
+        if hasattr(request, "_headers"):
+            del request._headers
+
+
+def json_response(content: Any, status_code: int = 200) -> Response:
+    return Response(orjson.dumps(content), status_code=status_code, media_type="application/json")

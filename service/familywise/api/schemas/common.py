@@ -1,0 +1,124 @@
+"""Types shared by the request and response models.
+
+Numbers arrive from :mod:`familywise.api.parsing` as ``Decimal`` (their exact
+text). The types here accept numbers only (never strings or booleans, which
+lax validation would coerce) and describe themselves in the OpenAPI schema as
+plain JSON numbers.
+"""
+
+from __future__ import annotations
+
+import math
+from decimal import Decimal
+from typing import Annotated, Any, Literal
+
+from pydantic import BaseModel, ConfigDict, Field, PlainValidator, WithJsonSchema
+from pydantic_core import PydanticCustomError
+
+MAX_LABEL_LENGTH = 200
+
+
+class ItemError(ValueError):
+    """A bad element of a list; carries its index so the pointer can name it."""
+
+    def __init__(self, index: int, message: str) -> None:
+        super().__init__(message)
+        self.index = index
+
+
+def _as_decimal(value: Any) -> Decimal | None:
+    kind = type(value)
+    if kind is Decimal:
+        return value if value.is_finite() else None
+    if kind is int:
+        return Decimal(value)
+    if kind is float:
+        return Decimal(repr(value)) if math.isfinite(value) else None
+    return None
+
+
+def _values(raw: Any) -> list[Decimal]:
+    if not isinstance(raw, list):
+        raise PydanticCustomError("list_type", "must be an array of numbers")
+    if not raw:
+        raise PydanticCustomError("too_short", "a group needs at least one value")
+    out = raw
+    for i, v in enumerate(raw):
+        if type(v) is not Decimal:
+            d = _as_decimal(v)
+            if d is None:
+                raise ItemError(i, "values must be finite JSON numbers (not strings, booleans or null)")
+            if out is raw:
+                out = list(raw)
+            out[i] = d
+        elif not v.is_finite():
+            raise ItemError(i, "values must be finite numbers")
+    return out
+
+
+def _number(raw: Any) -> float:
+    d = _as_decimal(raw)
+    if d is None:
+        raise PydanticCustomError("number_type", "must be a finite JSON number")
+    value = float(d)
+    if not math.isfinite(value):
+        raise PydanticCustomError("number_range", "must be within double-precision range")
+    return value
+
+
+def _integer(raw: Any) -> int:
+    d = _as_decimal(raw)
+    if d is None or d != d.to_integral_value():
+        raise PydanticCustomError("int_type", "must be a whole JSON number")
+    return int(d)
+
+
+def _alpha(raw: Any) -> float:
+    value = _number(raw)
+    if not 0.0 < value <= 0.5:
+        raise PydanticCustomError("alpha_range", "alpha must lie in (0, 0.5]")
+    return value
+
+
+Values = Annotated[
+    list[Decimal],
+    PlainValidator(_values),
+    WithJsonSchema({"type": "array", "items": {"type": "number"}, "minItems": 1}),
+]
+Number = Annotated[float, PlainValidator(_number), WithJsonSchema({"type": "number"})]
+Integer = Annotated[int, PlainValidator(_integer), WithJsonSchema({"type": "integer"})]
+Alpha = Annotated[
+    float,
+    PlainValidator(_alpha),
+    WithJsonSchema(
+        {"type": "number", "exclusiveMinimum": 0, "maximum": 0.5, "default": 0.05,
+         "description": "Error rate of the family (or level of each test): 0 < alpha <= 0.5."}
+    ),
+]
+Label = Annotated[str, Field(min_length=1, max_length=MAX_LABEL_LENGTH)]
+
+
+class Strict(BaseModel):
+    """Base of every request model: unknown fields are an error, not ignored."""
+
+    model_config = ConfigDict(extra="forbid", frozen=True)
+
+
+class Group(Strict):
+    label: Label = Field(description="Name of the group, unique within the request.")
+    values: Values = Field(description="Replicate measurements, as decimal numbers.")
+
+
+class GroupsRequest(Strict):
+    groups: list[Group] = Field(min_length=2, description="Two or more groups of measurements.")
+    alpha: Alpha = 0.05
+
+
+ErrorRate = Literal["familywise", "per_comparison", "false_discovery"]
+
+
+class Provenance(BaseModel):
+    service: str
+    version: str
+    input_sha256: str = Field(description="SHA-256 of the canonical form of the validated request.")
+    libraries: dict[str, str]

@@ -1,0 +1,244 @@
+"""One-way data, ingested exactly, and per-group summaries.
+
+Every method in the statistics layer takes a :class:`OneWayData`. Values are
+held as deviations from one common centre, computed exactly in decimal
+arithmetic from the numbers' text and rounded once to double precision. All
+spreads, sums of squares and test statistics are invariant to that shift, so
+data with many constant leading digits (the NIST StRD "lower difficulty"
+files SmLs07-09 carry 13) lose nothing to the float conversion; means are
+the centre plus the mean deviation.
+"""
+
+from __future__ import annotations
+
+import math
+from collections.abc import Sequence
+from dataclasses import dataclass
+from decimal import Context, Decimal
+from functools import cached_property
+
+import numpy as np
+from numpy.typing import ArrayLike
+from scipy import stats
+
+from familywise.stats.errors import DataError
+
+# 34 significant digits (IEEE decimal128) hold the difference of any two
+# decimals that are not absurdly far apart exactly; beyond that the result is
+# rounded once more, far below double precision.
+_DECIMAL = Context(prec=34)
+
+#: Largest magnitude accepted for a value: squares and sums of squares of
+#: values this large still fit in double precision.
+MAX_MAGNITUDE = 1e150
+
+
+@dataclass(frozen=True)
+class OneWayData:
+    """Groups of replicate measurements, stored as deviations from ``centre``."""
+
+    labels: tuple[str, ...]
+    deviations: tuple[np.ndarray, ...]
+    centre: float
+
+    def __post_init__(self) -> None:
+        if len(self.labels) != len(self.deviations):
+            raise ValueError("one label per group")
+
+    # -- construction -------------------------------------------------------
+
+    @classmethod
+    def from_decimals(
+        cls, labels: Sequence[str], groups: Sequence[Sequence[Decimal | int]]
+    ) -> OneWayData:
+        """Exact ingestion: deviations from the first value, in decimal."""
+        _check_shape(labels, groups)
+        centre = Decimal(groups[0][0])
+        if not centre.is_finite():
+            raise DataError("finite", "values must be finite numbers", "/groups/0/values/0")
+        subtract = _DECIMAL.subtract
+        deviations = [
+            np.fromiter((float(subtract(v, centre)) for v in values), float, len(values))
+            for values in groups
+        ]
+        _check_values(deviations, float(centre))
+        return cls(tuple(labels), tuple(deviations), float(centre))
+
+    @classmethod
+    def from_arrays(cls, labels: Sequence[str], groups: Sequence[ArrayLike]) -> OneWayData:
+        """Ingestion of floating-point arrays, centred on the first value."""
+        arrays = [np.asarray(g, dtype=float).ravel() for g in groups]
+        _check_shape(labels, arrays)
+        _check_values(arrays, 0.0)
+        centre = float(arrays[0][0])
+        return cls(tuple(labels), tuple(a - centre for a in arrays), centre)
+
+    # -- shape --------------------------------------------------------------
+
+    @property
+    def k(self) -> int:
+        return len(self.labels)
+
+    @cached_property
+    def sizes(self) -> np.ndarray:
+        return np.array([d.size for d in self.deviations], dtype=float)
+
+    @property
+    def n_total(self) -> int:
+        return int(self.sizes.sum())
+
+    @property
+    def df_within(self) -> int:
+        return self.n_total - self.k
+
+    def index(self, label: str) -> int:
+        try:
+            return self.labels.index(label)
+        except ValueError:
+            raise DataError("unknown-group", f"no group is labelled {label!r}") from None
+
+    # -- per-group moments (on the deviations) ------------------------------
+
+    @cached_property
+    def mean_deviations(self) -> np.ndarray:
+        return np.array([d.mean() for d in self.deviations])
+
+    @cached_property
+    def means(self) -> np.ndarray:
+        return self.centre + self.mean_deviations
+
+    @cached_property
+    def within_ss_by_group(self) -> np.ndarray:
+        """Two-pass centred sums of squares of each group."""
+        return np.array(
+            [float(np.sum((d - m) ** 2)) for d, m in zip(self.deviations, self.mean_deviations, strict=True)]
+        )
+
+    @cached_property
+    def variances(self) -> np.ndarray:
+        """Sample variances (nan for a group of one)."""
+        with np.errstate(invalid="ignore", divide="ignore"):
+            return np.where(self.sizes > 1, self.within_ss_by_group / (self.sizes - 1), np.nan)
+
+    @cached_property
+    def within_ss(self) -> float:
+        return float(np.sum(self.within_ss_by_group))
+
+    @cached_property
+    def grand_mean_deviation(self) -> float:
+        return float(np.sum(self.sizes * self.mean_deviations) / self.n_total)
+
+    @cached_property
+    def between_ss(self) -> float:
+        return float(np.sum(self.sizes * (self.mean_deviations - self.grand_mean_deviation) ** 2))
+
+    @cached_property
+    def pooled_variance(self) -> float:
+        """Within-group mean square (requires df_within > 0)."""
+        return self.within_ss / self.df_within
+
+    def residuals(self) -> np.ndarray:
+        return np.concatenate(
+            [d - m for d, m in zip(self.deviations, self.mean_deviations, strict=True)]
+        )
+
+    def require_error_df(self) -> None:
+        """Refuse designs without within-group degrees of freedom."""
+        if self.df_within <= 0:
+            raise DataError(
+                "within-df",
+                "no within-group degrees of freedom: at least one group needs two or more values",
+                "/groups",
+            )
+
+    def require_pooled_variance(self) -> None:
+        """Refuse designs whose pooled within-group variance is zero."""
+        self.require_error_df()
+        if not self.within_ss > 0.0:
+            raise DataError(
+                "zero-variance",
+                "every group is constant (zero within-group variance): standard errors and "
+                "test statistics are undefined",
+                "/groups",
+            )
+
+
+def _check_shape(labels: Sequence[str], groups: Sequence[Sequence]) -> None:
+    if len(groups) < 2:
+        raise DataError("min-groups", "at least two groups are needed", "/groups")
+    if len(labels) != len(groups):
+        raise DataError("labels", "one label per group", "/groups")
+    seen: dict[str, int] = {}
+    for g, label in enumerate(labels):
+        if not label or not label.strip():
+            raise DataError("label-empty", "group labels must not be empty", f"/groups/{g}/label")
+        if label in seen:
+            raise DataError(
+                "label-duplicate",
+                f"label {label!r} is used by groups {seen[label]} and {g}",
+                f"/groups/{g}/label",
+            )
+        seen[label] = g
+    for g, values in enumerate(groups):
+        if len(values) == 0:
+            raise DataError("group-empty", "every group needs at least one value", f"/groups/{g}/values")
+
+
+def _check_values(arrays: Sequence[np.ndarray], centre: float) -> None:
+    for g, values in enumerate(arrays):
+        bad = np.flatnonzero(~np.isfinite(values) | (np.abs(values + centre) > MAX_MAGNITUDE))
+        if bad.size:
+            raise DataError(
+                "finite",
+                f"values must be finite numbers within ±{MAX_MAGNITUDE:g}",
+                f"/groups/{g}/values/{bad[0]}",
+            )
+
+
+@dataclass(frozen=True)
+class GroupSummary:
+    label: str
+    n: int
+    mean: float
+    sd: float | None
+    se: float | None
+    ci_low: float | None
+    ci_high: float | None
+    median: float
+    minimum: float
+    maximum: float
+
+
+def summarise(data: OneWayData, alpha: float = 0.05) -> tuple[GroupSummary, ...]:
+    """n, mean, SD, SE and the t interval of each group mean (own variance).
+
+    A group of one value has no SD: its SD, SE and interval are None.
+    """
+    out = []
+    for label, d, n, m, var in zip(
+        data.labels, data.deviations, data.sizes, data.means, data.variances, strict=True
+    ):
+        n = int(n)
+        if n > 1:
+            sd = math.sqrt(var)
+            se = sd / math.sqrt(n)
+            half = stats.t.isf(alpha / 2.0, n - 1) * se
+            ci = (m - half, m + half)
+        else:
+            sd = se = None
+            ci = (None, None)
+        out.append(
+            GroupSummary(
+                label=label,
+                n=n,
+                mean=float(m),
+                sd=sd,
+                se=se,
+                ci_low=ci[0],
+                ci_high=ci[1],
+                median=float(data.centre + np.median(d)),
+                minimum=float(data.centre + d.min()),
+                maximum=float(data.centre + d.max()),
+            )
+        )
+    return tuple(out)
