@@ -3,7 +3,11 @@
 from __future__ import annotations
 
 import logging
+import threading
+from collections.abc import AsyncIterator
+from contextlib import asynccontextmanager
 from importlib import resources
+
 from fastapi import FastAPI, Request
 from fastapi.exceptions import RequestValidationError
 from fastapi.openapi.docs import get_swagger_ui_html
@@ -113,12 +117,60 @@ def _install_docs(app: FastAPI) -> None:
         return HTMLResponse(f"<h1>{title}</h1><p>HTTP {status}.</p><p>{description}</p>")
 
 
+def _start_warm_up(app: FastAPI) -> None:
+    """Compile and tabulate the distributions in the background; /readyz
+    answers 503 until this is done, /healthz at once."""
+    warm: threading.Event = app.state.warm
+    if not app.state.settings.warm_up or warm.is_set():
+        warm.set()
+        return
+
+    def run() -> None:
+        from familywise.stats.distributions import warm_up
+
+        try:
+            warm_up()
+        except Exception:  # pragma: no cover - reported, and readiness never set
+            log.exception("warm-up failed")
+            return
+        warm.set()
+
+    threading.Thread(target=run, name="familywise-warm-up", daemon=True).start()
+
+
+@asynccontextmanager
+async def _lifespan(app: FastAPI) -> AsyncIterator[None]:
+    _start_warm_up(app)
+    yield
+
+
+def _install_openapi(app: FastAPI) -> None:
+    """The generated schema, plus the problem-details document every refusal uses."""
+    from fastapi.openapi.utils import get_openapi
+
+    from familywise.api.schemas.problem import Problem
+
+    def openapi() -> dict:
+        if app.openapi_schema is None:
+            schema = get_openapi(title=app.title, version=app.version, description=app.description,
+                                 routes=app.routes, license_info=app.license_info)
+            problem = Problem.model_json_schema(ref_template="#/components/schemas/{model}")
+            components = schema.setdefault("components", {}).setdefault("schemas", {})
+            components.update(problem.pop("$defs", {}))
+            components["Problem"] = problem
+            app.openapi_schema = schema
+        return app.openapi_schema
+
+    app.openapi = openapi  # type: ignore[method-assign]
+
+
 def create_app(settings: Settings | None = None) -> FastAPI:
     """The familywise ASGI application."""
     from familywise.api.routes import ROUTERS
 
     settings = settings or Settings.from_env()
     app = FastAPI(
+        lifespan=_lifespan,
         title="familywise",
         version=__version__,
         description=DESCRIPTION,
@@ -127,10 +179,14 @@ def create_app(settings: Settings | None = None) -> FastAPI:
         license_info={"name": "MIT"},
     )
     app.state.settings = settings
+    app.state.warm = threading.Event()
+    if not settings.warm_up:
+        app.state.warm.set()
     _install_handlers(app)
     _install_docs(app)
     for router in ROUTERS:
         app.include_router(router)
+    _install_openapi(app)
     # The last middleware added is the outermost: the request id wraps the
     # body limit so that refusals are logged with their id too.
     app.add_middleware(BodyLimit, max_bytes=settings.max_body_bytes)

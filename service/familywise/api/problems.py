@@ -83,7 +83,9 @@ class ProblemError(Exception):
         return problem_response(self.document(), self.status, self.headers)
 
 
-def problem_response(document: dict[str, Any], status: int, headers: dict[str, str] | None = None) -> Response:
+def problem_response(
+    document: dict[str, Any], status: int, headers: dict[str, str] | None = None
+) -> Response:
     return Response(
         orjson.dumps(document), status_code=status, media_type=MEDIA_TYPE, headers=headers
     )

@@ -27,6 +27,10 @@ def media_type(request: Request) -> str:
     return request.headers.get("content-type", "").split(";", 1)[0].strip().lower()
 
 
+def _count_values(groups: list) -> int:
+    return sum(len(g["values"]) for g in groups if isinstance(g, dict) and isinstance(g.get("values"), list))
+
+
 def check_limits(obj: Any, settings: Settings, pointer: str = "") -> None:
     """Refuse requests larger than the configured limits, naming the limit."""
     if not isinstance(obj, dict):
@@ -39,7 +43,7 @@ def check_limits(obj: Any, settings: Settings, pointer: str = "") -> None:
                 f"{len(groups)} groups exceed the limit of {settings.max_groups} (FAMILYWISE_MAX_GROUPS)",
                 pointer=f"{pointer}/groups", rule="max_groups",
             )
-        count = sum(len(g["values"]) for g in groups if isinstance(g, dict) and isinstance(g.get("values"), list))
+        count = _count_values(groups)
         if count > settings.max_values:
             raise ProblemError(
                 "limit-exceeded",
@@ -67,12 +71,10 @@ def check_limits(obj: Any, settings: Settings, pointer: str = "") -> None:
         total = 0
         for i, item in enumerate(items):
             if isinstance(item, dict) and isinstance(item.get("request"), dict):
-                req = item["request"]
-                check_limits(req, settings, f"{pointer}/items/{i}/request")
-                groups = req.get("groups")
-                if isinstance(groups, list):
-                    total += sum(len(g["values"]) for g in groups
-                                 if isinstance(g, dict) and isinstance(g.get("values"), list))
+                request = item["request"]
+                check_limits(request, settings, f"{pointer}/items/{i}/request")
+                if isinstance(request.get("groups"), list):
+                    total += _count_values(request["groups"])
         if total > settings.max_values * 10:
             raise ProblemError(
                 "limit-exceeded",
@@ -135,3 +137,43 @@ async def _decode_body(request: Request, accepts_csv: bool) -> None:
 
 def json_response(content: Any, status_code: int = 200) -> Response:
     return Response(orjson.dumps(content), status_code=status_code, media_type="application/json")
+
+
+CSV_DESCRIPTION = (
+    "Instrument export as CSV. layout=long (default): one row per measurement with a "
+    "group column and a value column (named by group_column / value_column, default "
+    "'group' and 'value'); layout=wide: one column per group, header = labels, ragged "
+    "columns allowed. delimiter: ',', ';', 'tab' or '|' (default: from the header); "
+    "decimal_separator: '.' or ','. Other request fields (alpha, method, ...) go in the "
+    "query string."
+)
+
+ACCEPTS_CSV: dict[str, Any] = {
+    "x-accepts-csv": True,
+    "requestBody": {
+        "content": {"text/csv": {"schema": {"type": "string"}, "example": "group,value\n"
+                                 "reference buffer,41.2\nreference buffer,43.8\n"
+                                 "HEPES pH 7.5,48.7\nHEPES pH 7.5,50.2\n"}}
+    },
+    "parameters": [
+        {"name": "layout", "in": "query", "required": False,
+         "schema": {"type": "string", "enum": ["long", "wide"]}, "description": CSV_DESCRIPTION},
+        {"name": "group_column", "in": "query", "required": False, "schema": {"type": "string"},
+         "description": "CSV only: name of the group column (long layout)."},
+        {"name": "value_column", "in": "query", "required": False, "schema": {"type": "string"},
+         "description": "CSV only: name of the value column (long layout)."},
+        {"name": "delimiter", "in": "query", "required": False,
+         "schema": {"type": "string", "enum": [",", ";", "tab", "|"]},
+         "description": "CSV only: field delimiter."},
+        {"name": "decimal_separator", "in": "query", "required": False,
+         "schema": {"type": "string", "enum": [".", ","]},
+         "description": "CSV only: decimal separator of the numbers."},
+    ],
+}
+
+
+def one_way_data(groups: Any) -> Any:
+    """The validated groups of a request as exactly ingested one-way data."""
+    from familywise.stats.data import OneWayData
+
+    return OneWayData.from_decimals([g.label for g in groups], [g.values for g in groups])

@@ -14,7 +14,7 @@ from typing import Any
 import numpy as np
 
 from familywise import __version__
-from familywise.stats.omnibus import TestResult, Unavailable
+from familywise.stats.omnibus import HypothesisTest, Unavailable
 
 
 def plain(obj: Any) -> Any:
@@ -24,7 +24,7 @@ def plain(obj: Any) -> Any:
     it, and orjson would silently write null): refuse loudly.
     """
     if dataclasses.is_dataclass(obj) and not isinstance(obj, type):
-        if isinstance(obj, TestResult):
+        if isinstance(obj, HypothesisTest):
             return {**{f.name: plain(getattr(obj, f.name)) for f in dataclasses.fields(obj)},
                     "unavailable": None}
         if isinstance(obj, Unavailable):

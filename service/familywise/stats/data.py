@@ -28,6 +28,9 @@ from familywise.stats.errors import DataError
 # rounded once more, far below double precision.
 _DECIMAL = Context(prec=34)
 
+# Sums of many exact deviations need more digits than any one of them.
+_WIDE = Context(prec=60)
+
 #: Largest magnitude accepted for a value: squares and sums of squares of
 #: values this large still fit in double precision.
 MAX_MAGNITUDE = 1e150
@@ -35,11 +38,18 @@ MAX_MAGNITUDE = 1e150
 
 @dataclass(frozen=True)
 class OneWayData:
-    """Groups of replicate measurements, stored as deviations from ``centre``."""
+    """Groups of replicate measurements, stored as deviations from ``centre``.
+
+    ``exact_order`` holds, when the data came as decimals, each group's mean,
+    median, minimum and maximum computed in decimal and rounded once, so that
+    a group written as 40.9, 41.2 reports 40.9 as its minimum (not the float
+    sum centre + deviation, 40.900000000000006).
+    """
 
     labels: tuple[str, ...]
     deviations: tuple[np.ndarray, ...]
     centre: float
+    exact_order: np.ndarray | None = None  # shape (k, 4): mean, median, min, max
 
     def __post_init__(self) -> None:
         if len(self.labels) != len(self.deviations):
@@ -57,12 +67,15 @@ class OneWayData:
         if not centre.is_finite():
             raise DataError("finite", "values must be finite numbers", "/groups/0/values/0")
         subtract = _DECIMAL.subtract
-        deviations = [
-            np.fromiter((float(subtract(v, centre)) for v in values), float, len(values))
-            for values in groups
-        ]
+        deviations = []
+        order = np.empty((len(groups), 4))
+        for g, values in enumerate(groups):
+            exact = [subtract(v, centre) for v in values]
+            dev = np.fromiter(map(float, exact), float, len(exact))
+            deviations.append(dev)
+            order[g] = _exact_order(exact, dev, centre)
         _check_values(deviations, float(centre))
-        return cls(tuple(labels), tuple(deviations), float(centre))
+        return cls(tuple(labels), tuple(deviations), float(centre), order)
 
     @classmethod
     def from_arrays(cls, labels: Sequence[str], groups: Sequence[ArrayLike]) -> OneWayData:
@@ -105,6 +118,8 @@ class OneWayData:
 
     @cached_property
     def means(self) -> np.ndarray:
+        if self.exact_order is not None:
+            return self.exact_order[:, 0].copy()
         return self.centre + self.mean_deviations
 
     @cached_property
@@ -184,6 +199,24 @@ def _check_shape(labels: Sequence[str], groups: Sequence[Sequence]) -> None:
             raise DataError("group-empty", "every group needs at least one value", f"/groups/{g}/values")
 
 
+def _exact_order(exact: list[Decimal], dev: np.ndarray, centre: Decimal) -> tuple[float, ...]:
+    """Mean, median, minimum, maximum of one group, from its exact deviations."""
+    ranked = np.argsort(dev, kind="stable")
+    n = len(exact)
+    total = Decimal(0)
+    for e in exact:
+        total = _WIDE.add(total, e)
+    mean = _WIDE.add(centre, _WIDE.divide(total, n))
+    middle = ranked[n // 2]
+    if n % 2:
+        median = _WIDE.add(centre, exact[middle])
+    else:
+        pair = _WIDE.add(exact[ranked[n // 2 - 1]], exact[middle])
+        median = _WIDE.add(centre, _WIDE.divide(pair, 2))
+    return (float(mean), float(median), float(_WIDE.add(centre, exact[ranked[0]])),
+            float(_WIDE.add(centre, exact[ranked[-1]])))
+
+
 def _check_values(arrays: Sequence[np.ndarray], centre: float) -> None:
     for g, values in enumerate(arrays):
         bad = np.flatnonzero(~np.isfinite(values) | (np.abs(values + centre) > MAX_MAGNITUDE))
@@ -215,8 +248,9 @@ def summarise(data: OneWayData, alpha: float = 0.05) -> tuple[GroupSummary, ...]
     A group of one value has no SD: its SD, SE and interval are None.
     """
     out = []
-    for label, d, n, m, var in zip(
-        data.labels, data.deviations, data.sizes, data.means, data.variances, strict=True
+    orders = data.exact_order if data.exact_order is not None else [None] * data.k
+    for label, d, n, m, var, order in zip(
+        data.labels, data.deviations, data.sizes, data.means, data.variances, orders, strict=True
     ):
         n = int(n)
         if n > 1:
@@ -236,9 +270,9 @@ def summarise(data: OneWayData, alpha: float = 0.05) -> tuple[GroupSummary, ...]
                 se=se,
                 ci_low=ci[0],
                 ci_high=ci[1],
-                median=float(data.centre + np.median(d)),
-                minimum=float(data.centre + d.min()),
-                maximum=float(data.centre + d.max()),
+                median=float(order[1]) if order is not None else float(data.centre + np.median(d)),
+                minimum=float(order[2]) if order is not None else float(data.centre + d.min()),
+                maximum=float(order[3]) if order is not None else float(data.centre + d.max()),
             )
         )
     return tuple(out)

@@ -63,7 +63,7 @@ class AnovaTable:
 
 
 @dataclass(frozen=True)
-class TestResult:
+class HypothesisTest:
     """A test statistic with its reference distribution's degrees of freedom."""
 
     statistic: float
@@ -103,11 +103,11 @@ class OmnibusResult:
     alpha: float
     groups: tuple[GroupSummary, ...]
     anova: AnovaTable
-    welch: TestResult | Unavailable
-    brown_forsythe: TestResult | Unavailable
-    kruskal_wallis: TestResult | Unavailable
-    levene: TestResult | Unavailable
-    shapiro_wilk: TestResult | Unavailable
+    welch: HypothesisTest | Unavailable
+    brown_forsythe: HypothesisTest | Unavailable
+    kruskal_wallis: HypothesisTest | Unavailable
+    levene: HypothesisTest | Unavailable
+    shapiro_wilk: HypothesisTest | Unavailable
     effect_sizes: EffectSizes
     diagnostics: Diagnostics
 
@@ -140,7 +140,15 @@ def anova_table(data: OneWayData) -> AnovaTable:
     )
 
 
-def welch_anova(data: OneWayData) -> TestResult | Unavailable:
+def _checked(result: HypothesisTest, what: str) -> HypothesisTest | Unavailable:
+    """A test whose statistic or p-value is not finite is reported unavailable."""
+    values = (result.statistic, result.df_num, result.df_den or 1.0, result.p_value)
+    if all(math.isfinite(v) for v in values):
+        return result
+    return Unavailable(f"{what} is undefined for these data (a degenerate spread)")
+
+
+def welch_anova(data: OneWayData) -> HypothesisTest | Unavailable:
     """Welch's (1951) test of equal means without equal variances."""
     if np.any(data.sizes < 2):
         return Unavailable("every group needs at least two values")
@@ -156,10 +164,11 @@ def welch_anova(data: OneWayData) -> TestResult | Unavailable:
     b = 1.0 + 2.0 * (k - 2.0) / (k * k - 1.0) * lam
     f = a / b
     df_den = (k * k - 1.0) / (3.0 * lam)
-    return TestResult(float(f), k - 1.0, float(df_den), float(stats.f.sf(f, k - 1, df_den)))
+    return _checked(HypothesisTest(float(f), k - 1.0, float(df_den), float(stats.f.sf(f, k - 1, df_den))),
+                    "Welch's test")
 
 
-def brown_forsythe_means(data: OneWayData) -> TestResult | Unavailable:
+def brown_forsythe_means(data: OneWayData) -> HypothesisTest | Unavailable:
     """Brown and Forsythe's (1974a) F* test of equal means."""
     if np.any(data.sizes < 2):
         return Unavailable("every group needs at least two values")
@@ -171,18 +180,20 @@ def brown_forsythe_means(data: OneWayData) -> TestResult | Unavailable:
     f = data.between_ss / denominator
     c = weights / denominator
     df_den = 1.0 / np.sum(c * c / (n - 1.0))
-    return TestResult(float(f), data.k - 1.0, float(df_den), float(stats.f.sf(f, data.k - 1, df_den)))
+    return _checked(
+        HypothesisTest(float(f), data.k - 1.0, float(df_den), float(stats.f.sf(f, data.k - 1, df_den))),
+        "The Brown-Forsythe test")
 
 
-def kruskal_wallis(data: OneWayData) -> TestResult | Unavailable:
+def kruskal_wallis(data: OneWayData) -> HypothesisTest | Unavailable:
     """Kruskal-Wallis H with the tie correction (scipy.stats.kruskal)."""
     if np.ptp(np.concatenate(data.deviations)) == 0.0:
         return Unavailable("all values are tied")
     h, p = stats.kruskal(*data.deviations)
-    return TestResult(float(h), data.k - 1.0, None, float(p))
+    return _checked(HypothesisTest(float(h), data.k - 1.0, None, float(p)), "Kruskal-Wallis")
 
 
-def levene_median(data: OneWayData) -> TestResult | Unavailable:
+def levene_median(data: OneWayData) -> HypothesisTest | Unavailable:
     """Levene's test on absolute deviations from group medians (Brown and
     Forsythe 1974b), via scipy.stats.levene(center="median")."""
     if np.any(data.sizes < 2):
@@ -190,19 +201,24 @@ def levene_median(data: OneWayData) -> TestResult | Unavailable:
     spread = np.concatenate([np.abs(d - np.median(d)) for d in data.deviations])
     if np.ptp(spread) == 0.0:
         return Unavailable("the absolute deviations from the medians are all equal")
+    within = [np.abs(d - np.median(d)) for d in data.deviations]
+    if all(np.ptp(z) == 0.0 for z in within):
+        return Unavailable("within every group the absolute deviations from the median are equal")
     statistic, p = stats.levene(*data.deviations, center="median")
-    return TestResult(float(statistic), data.k - 1.0, float(data.df_within), float(p))
+    return _checked(HypothesisTest(float(statistic), data.k - 1.0, float(data.df_within), float(p)),
+                    "Levene's test")
 
 
-def shapiro_wilk_residuals(data: OneWayData) -> TestResult | Unavailable:
+def shapiro_wilk_residuals(data: OneWayData) -> HypothesisTest | Unavailable:
     """Shapiro-Wilk W on the pooled residuals (scipy.stats.shapiro)."""
     residuals = data.residuals()
     if not 3 <= residuals.size <= SHAPIRO_MAX_N:
         return Unavailable(f"Shapiro-Wilk needs 3 to {SHAPIRO_MAX_N} residuals")
     if np.ptp(residuals) == 0.0:
         return Unavailable("the residuals are all zero")
-    w, p = stats.shapiro(residuals)
-    return TestResult(float(w), float(residuals.size), None, float(p))
+    with np.errstate(divide="ignore", invalid="ignore"):
+        w, p = stats.shapiro(residuals)
+    return _checked(HypothesisTest(float(w), float(residuals.size), None, float(p)), "Shapiro-Wilk")
 
 
 def effect_sizes(data: OneWayData, table: AnovaTable, alpha: float) -> EffectSizes:
@@ -244,8 +260,8 @@ def _noncentrality_interval(f: float, df1: int, df2: int, alpha: float) -> tuple
 def diagnostics(
     data: OneWayData,
     table: AnovaTable,
-    levene: TestResult | Unavailable,
-    shapiro: TestResult | Unavailable,
+    levene: HypothesisTest | Unavailable,
+    shapiro: HypothesisTest | Unavailable,
     alpha: float,
 ) -> Diagnostics:
     """Variance ratio, balance, and what each finding means for the follow-up."""
@@ -259,12 +275,12 @@ def diagnostics(
     size_ratio = float(sizes.max() / sizes.min())
     notes: list[str] = []
     unequal = (ratio is not None and ratio > MARKED_VARIANCE_RATIO) or (
-        isinstance(levene, TestResult) and levene.p_value < alpha
+        isinstance(levene, HypothesisTest) and levene.p_value < alpha
     )
     if unequal:
         described = f"largest/smallest variance {ratio:.3g}" if ratio is not None else "a zero variance"
         levene_text = (
-            f", Levene (median) p = {levene.p_value:.3g}" if isinstance(levene, TestResult) else ""
+            f", Levene (median) p = {levene.p_value:.3g}" if isinstance(levene, HypothesisTest) else ""
         )
         notes.append(
             f"Group variances look unequal ({described}{levene_text}). The classical F test and "
@@ -276,7 +292,7 @@ def diagnostics(
             "No marked difference between group variances was found; pooled-variance methods "
             "are reasonable (a non-significant Levene test does not prove equal variances)."
         )
-    if isinstance(shapiro, TestResult) and shapiro.p_value < alpha:
+    if isinstance(shapiro, HypothesisTest) and shapiro.p_value < alpha:
         if sizes.min() < SMALL_GROUP:
             notes.append(
                 f"The residuals depart from normality (Shapiro-Wilk p = {shapiro.p_value:.3g}) "

@@ -566,10 +566,8 @@ def _chi_drop(t):
 @njit(cache=True)
 def _chi_drop_inverse(level, side):
     """t on the given side of 0 (side = -1 or +1) where _chi_drop(t) = level."""
-    if side > 0:
-        t = 0.5 * math.log1p(2.0 * level) + 0.5
-    else:
-        t = -level - 0.5
+    # Starting points from the asymptotes: e^{2t}/2 for t > 0, -t - 1/2 for t < 0.
+    t = 0.5 * math.log1p(2.0 * level) + 0.5 if side > 0 else -level - 0.5
     for _ in range(60):
         f = _chi_drop(t) - level
         step = f / math.expm1(2.0 * t)
@@ -694,10 +692,7 @@ def _mixture_window(table, c, nu, upper, w_median):
     spacing = (t_hi - t_lo) / (SCAN - 1)
     step = spacing
     for i in range(SCAN + 9):
-        if i < SCAN:
-            t = t_lo + spacing * i
-        else:
-            t = sigma * (i - SCAN - 4)
+        t = t_lo + spacing * i if i < SCAN else sigma * (i - SCAN - 4)
         if log_peak - nu * _chi_drop(t) < best - DROP:
             continue
         v = _integrand(kind, t, params, table)

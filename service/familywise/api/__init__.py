@@ -1,0 +1,1 @@
+"""The HTTP layer: FastAPI app factory, routes, request and response models."""

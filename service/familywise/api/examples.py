@@ -1,0 +1,35 @@
+"""Worked examples for the schema and the README.
+
+The scenario is invented: an enzyme-activity plate assay in which the
+specific activity (U/mg) of one enzyme preparation is measured in six
+replicate wells for each of five buffer formulations. The "balanced" plate
+has every well; on the "unbalanced" plate some wells were lost.
+"""
+
+from __future__ import annotations
+
+BUFFER_PLATE = {
+    "groups": [
+        {"label": "reference buffer", "values": [41.2, 43.8, 42.5, 40.9, 44.1, 42.0]},
+        {"label": "phosphate pH 7.0", "values": [44.9, 46.3, 45.1, 47.2, 45.8, 44.6]},
+        {"label": "HEPES pH 7.5", "values": [48.7, 50.2, 49.5, 47.9, 51.0, 49.1]},
+        {"label": "Tris pH 8.0", "values": [43.1, 42.2, 44.6, 41.8, 43.9, 42.7]},
+        {"label": "citrate pH 6.0", "values": [38.4, 39.9, 37.6, 40.2, 38.8, 39.1]},
+    ],
+    "alpha": 0.05,
+}
+
+UNBALANCED_PLATE = {
+    "groups": [
+        {"label": "reference buffer", "values": [41.2, 43.8, 42.5, 40.9, 44.1, 42.0]},
+        {"label": "phosphate pH 7.0", "values": [44.9, 46.3, 45.1]},
+        {"label": "HEPES pH 7.5", "values": [48.7, 50.2, 49.5, 47.9, 51.0]},
+        {"label": "Tris pH 8.0", "values": [43.1, 42.2, 44.6, 41.8]},
+        {"label": "citrate pH 6.0", "values": [38.4, 39.9, 37.6, 40.2, 38.8, 39.1]},
+    ],
+    "alpha": 0.05,
+}
+
+
+def with_fields(base: dict, **fields: object) -> dict:
+    return {**base, **fields}

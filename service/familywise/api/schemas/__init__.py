@@ -1,0 +1,1 @@
+"""Pydantic request and response models, one module per endpoint family."""
