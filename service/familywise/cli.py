@@ -18,6 +18,13 @@ DEMO_REQUEST = (
 def _serve(args: argparse.Namespace) -> int:
     import uvicorn
 
+    from familywise.api.settings import Settings
+
+    try:
+        Settings.from_env()  # refuse bad settings here, not in every worker over and over
+    except (ValueError, OSError) as exc:
+        print(f"familywise: invalid configuration: {exc}", file=sys.stderr)
+        return 2
     print(f"familywise: interactive API docs at http://{args.host}:{args.port}/docs", flush=True)
     print("familywise: try a request:", flush=True)
     print("  " + DEMO_REQUEST.format(host=args.host, port=args.port), flush=True)

@@ -16,7 +16,7 @@ from fastapi.staticfiles import StaticFiles
 from starlette.exceptions import HTTPException as StarletteHTTPException
 
 from familywise import __version__
-from familywise.api.middleware import BodyLimit, RequestContext
+from familywise.api.middleware import RequestContext
 from familywise.api.problems import CATALOGUE, ProblemError, pointer_from_location
 from familywise.api.schemas.common import ItemError
 from familywise.api.settings import Settings
@@ -187,8 +187,5 @@ def create_app(settings: Settings | None = None) -> FastAPI:
     for router in ROUTERS:
         app.include_router(router)
     _install_openapi(app)
-    # The last middleware added is the outermost: the request id wraps the
-    # body limit so that refusals are logged with their id too.
-    app.add_middleware(BodyLimit, max_bytes=settings.max_body_bytes)
-    app.add_middleware(RequestContext)
+    app.add_middleware(RequestContext, max_bytes=settings.max_body_bytes)
     return app

@@ -33,3 +33,37 @@ UNBALANCED_PLATE = {
 
 def with_fields(base: dict, **fields: object) -> dict:
     return {**base, **fields}
+
+
+PLANNED_CONTRASTS = [
+    {"name": "reference vs the other buffers",
+     "coefficients": {"reference buffer": 4, "phosphate pH 7.0": -1, "HEPES pH 7.5": -1,
+                      "Tris pH 8.0": -1, "citrate pH 6.0": -1}},
+    {"name": "HEPES vs phosphate", "coefficients": {"HEPES pH 7.5": 1, "phosphate pH 7.0": -1}},
+]
+
+
+#: A complete planned set for the buffer plate (k - 1 = 4 contrasts): the
+#: reference buffer against the four new formulations, near-neutral pH
+#: (phosphate 7.0, HEPES 7.5) against the pH extremes (Tris 8.0, citrate 6.0),
+#: and one comparison within each of those pairs. Orthogonal with six wells per
+#: buffer; not with the wells lost on the unbalanced plate.
+BUFFER_CONTRAST_SET = [
+    {"name": "reference vs new formulations",
+     "coefficients": {"reference buffer": 4, "phosphate pH 7.0": -1, "HEPES pH 7.5": -1,
+                      "Tris pH 8.0": -1, "citrate pH 6.0": -1}},
+    {"name": "near-neutral vs extreme pH",
+     "coefficients": {"phosphate pH 7.0": 1, "HEPES pH 7.5": 1, "Tris pH 8.0": -1, "citrate pH 6.0": -1}},
+    {"name": "phosphate vs HEPES", "coefficients": {"phosphate pH 7.0": 1, "HEPES pH 7.5": -1}},
+    {"name": "Tris vs citrate", "coefficients": {"Tris pH 8.0": 1, "citrate pH 6.0": -1}},
+]
+
+CONTRASTS_BALANCED = {"groups": BUFFER_PLATE["groups"], "contrasts": BUFFER_CONTRAST_SET, "alpha": 0.05}
+
+CONTRASTS_UNBALANCED = {"groups": UNBALANCED_PLATE["groups"], "contrasts": BUFFER_CONTRAST_SET, "alpha": 0.05}
+
+#: Only the group sizes of the unbalanced plate, and a Helmert set weighted by them.
+CONTRASTS_HELMERT_SIZES = {
+    "sizes": {g["label"]: len(g["values"]) for g in UNBALANCED_PLATE["groups"]},
+    "standard": {"kind": "helmert"},
+}

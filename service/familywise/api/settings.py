@@ -35,7 +35,8 @@ def _keys() -> frozenset[str]:
     path = os.environ.get("FAMILYWISE_API_KEY_FILE")
     if path:
         with open(path, encoding="utf-8") as handle:
-            keys |= {line.strip() for line in handle if line.strip() and not line.startswith("#")}
+            stripped = (line.strip() for line in handle)
+            keys |= {line for line in stripped if line and not line.startswith("#")}
     return frozenset(keys)
 
 

@@ -14,7 +14,7 @@ from __future__ import annotations
 import math
 from collections.abc import Sequence
 from dataclasses import dataclass
-from decimal import Context, Decimal
+from decimal import Context, Decimal, localcontext
 from functools import cached_property
 
 import numpy as np
@@ -40,16 +40,18 @@ MAX_MAGNITUDE = 1e150
 class OneWayData:
     """Groups of replicate measurements, stored as deviations from ``centre``.
 
-    ``exact_order`` holds, when the data came as decimals, each group's mean,
-    median, minimum and maximum computed in decimal and rounded once, so that
-    a group written as 40.9, 41.2 reports 40.9 as its minimum (not the float
-    sum centre + deviation, 40.900000000000006).
+    When the data came as decimals, ``exact`` keeps the exact deviations, from
+    which :attr:`exact_order` gives each group's mean, median, minimum and
+    maximum computed in decimal and rounded once, so that a group written as
+    40.9, 41.2 reports 40.9 as its minimum (not the float sum centre +
+    deviation, 40.900000000000006).
     """
 
     labels: tuple[str, ...]
     deviations: tuple[np.ndarray, ...]
     centre: float
-    exact_order: np.ndarray | None = None  # shape (k, 4): mean, median, min, max
+    exact: tuple[list[Decimal], ...] | None = None
+    exact_centre: Decimal | None = None
 
     def __post_init__(self) -> None:
         if len(self.labels) != len(self.deviations):
@@ -66,16 +68,11 @@ class OneWayData:
         centre = Decimal(groups[0][0])
         if not centre.is_finite():
             raise DataError("finite", "values must be finite numbers", "/groups/0/values/0")
-        subtract = _DECIMAL.subtract
-        deviations = []
-        order = np.empty((len(groups), 4))
-        for g, values in enumerate(groups):
-            exact = [subtract(v, centre) for v in values]
-            dev = np.fromiter(map(float, exact), float, len(exact))
-            deviations.append(dev)
-            order[g] = _exact_order(exact, dev, centre)
+        with localcontext(_DECIMAL):
+            exact = tuple([v - centre for v in values] for values in groups)
+        deviations = tuple(np.array(list(map(float, e))) for e in exact)
         _check_values(deviations, float(centre))
-        return cls(tuple(labels), tuple(deviations), float(centre), order)
+        return cls(tuple(labels), deviations, float(centre), exact, centre)
 
     @classmethod
     def from_arrays(cls, labels: Sequence[str], groups: Sequence[ArrayLike]) -> OneWayData:
@@ -114,7 +111,28 @@ class OneWayData:
 
     @cached_property
     def mean_deviations(self) -> np.ndarray:
-        return np.array([d.mean() for d in self.deviations])
+        return np.add.reduceat(self._pooled, self._starts) / self.sizes
+
+    @cached_property
+    def _pooled(self) -> np.ndarray:
+        """All deviations in one array, groups one after another."""
+        return np.concatenate(self.deviations)
+
+    @cached_property
+    def _starts(self) -> np.ndarray:
+        return np.concatenate([[0], np.cumsum(self.sizes[:-1])]).astype(np.intp)
+
+    @cached_property
+    def exact_order(self) -> np.ndarray | None:
+        """(k, 4) array of each group's mean, median, minimum and maximum from
+        the exact decimals (None when the data came as floats)."""
+        if self.exact is None:
+            return None
+        order = np.empty((self.k, 4))
+        with localcontext(_WIDE):
+            for g, (exact, dev) in enumerate(zip(self.exact, self.deviations, strict=True)):
+                order[g] = _exact_order(exact, dev.tolist(), self.exact_centre)
+        return order
 
     @cached_property
     def means(self) -> np.ndarray:
@@ -125,9 +143,8 @@ class OneWayData:
     @cached_property
     def within_ss_by_group(self) -> np.ndarray:
         """Two-pass centred sums of squares of each group."""
-        return np.array(
-            [float(np.sum((d - m) ** 2)) for d, m in zip(self.deviations, self.mean_deviations, strict=True)]
-        )
+        centred = self._pooled - np.repeat(self.mean_deviations, self.sizes.astype(np.intp))
+        return np.add.reduceat(centred * centred, self._starts)
 
     @cached_property
     def variances(self) -> np.ndarray:
@@ -199,25 +216,24 @@ def _check_shape(labels: Sequence[str], groups: Sequence[Sequence]) -> None:
             raise DataError("group-empty", "every group needs at least one value", f"/groups/{g}/values")
 
 
-def _exact_order(exact: list[Decimal], dev: np.ndarray, centre: Decimal) -> tuple[float, ...]:
-    """Mean, median, minimum, maximum of one group, from its exact deviations."""
-    ranked = np.argsort(dev, kind="stable")
+def _exact_order(exact: list[Decimal], floats: list[float], centre: Decimal) -> tuple[float, ...]:
+    """Mean, median, minimum, maximum of one group, from its exact deviations
+    (call inside ``localcontext(_WIDE)``)."""
+    ranked = sorted(range(len(floats)), key=floats.__getitem__)
     n = len(exact)
-    total = Decimal(0)
-    for e in exact:
-        total = _WIDE.add(total, e)
-    mean = _WIDE.add(centre, _WIDE.divide(total, n))
+    mean = centre + sum(exact, Decimal(0)) / n
     middle = ranked[n // 2]
     if n % 2:
-        median = _WIDE.add(centre, exact[middle])
+        median = centre + exact[middle]
     else:
-        pair = _WIDE.add(exact[ranked[n // 2 - 1]], exact[middle])
-        median = _WIDE.add(centre, _WIDE.divide(pair, 2))
-    return (float(mean), float(median), float(_WIDE.add(centre, exact[ranked[0]])),
-            float(_WIDE.add(centre, exact[ranked[-1]])))
+        median = centre + (exact[ranked[n // 2 - 1]] + exact[middle]) / 2
+    return float(mean), float(median), float(centre + exact[ranked[0]]), float(centre + exact[ranked[-1]])
 
 
 def _check_values(arrays: Sequence[np.ndarray], centre: float) -> None:
+    everything = np.concatenate(arrays)
+    if np.all(np.isfinite(everything)) and np.max(np.abs(everything + centre)) <= MAX_MAGNITUDE:
+        return
     for g, values in enumerate(arrays):
         bad = np.flatnonzero(~np.isfinite(values) | (np.abs(values + centre) > MAX_MAGNITUDE))
         if bad.size:

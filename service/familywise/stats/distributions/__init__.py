@@ -9,12 +9,14 @@
 
 from familywise.stats.distributions.many_to_one import (
     many_to_one_cdf,
+    many_to_one_curve,
     many_to_one_isf,
     many_to_one_logsf,
     many_to_one_sf,
 )
 from familywise.stats.distributions.studentized_range import (
     studentized_range_cdf,
+    studentized_range_curve,
     studentized_range_isf,
     studentized_range_logsf,
     studentized_range_sf,
@@ -22,10 +24,12 @@ from familywise.stats.distributions.studentized_range import (
 
 __all__ = [
     "many_to_one_cdf",
+    "many_to_one_curve",
     "many_to_one_isf",
     "many_to_one_logsf",
     "many_to_one_sf",
     "studentized_range_cdf",
+    "studentized_range_curve",
     "studentized_range_isf",
     "studentized_range_logsf",
     "studentized_range_sf",

@@ -826,3 +826,71 @@ def mixture_quantile(table, log_alpha, nu, w_median, upper_start):
         if abs(x1 - x0) < 1e-15:
             break
     return math.exp(x1)
+
+
+# --------------------------------------------------------------------------
+# Tables of the mixture itself, log P(M / s > c) in c, for recurring designs
+# --------------------------------------------------------------------------
+# A follow-up family evaluates the same distribution (one statistic, one nu)
+# at many c, and laboratories run the same design again and again. The
+# mixture is therefore also tabulated, per (statistic, nu), on Chebyshev
+# panels in c, each panel filled from 16 adaptive evaluations the first time
+# a c falls in it; the same request gives the same numbers whichever request
+# filled the panel. Beyond the table's span the adaptive evaluation is used.
+
+
+@njit(cache=True)
+def _fill_mixture_panel(curve, base, nu, w_median, j):
+    edges, coef, done, fit, nodes = curve
+    a = edges[j]
+    b = edges[j + 1]
+    n = nodes.size
+    values = np.empty(n)
+    for i in range(n):
+        values[i] = mixture_log_sf(base, 0.5 * (a + b) + 0.5 * (b - a) * nodes[i], nu, w_median)[0]
+    for r in range(n):
+        acc = 0.0
+        for i in range(n):
+            acc += fit[r, i] * values[i]
+        coef[j, r] = acc
+    done[j] = True
+
+
+@njit(cache=True)
+def curve_log_sf(curve, base, nu, w_median, c):
+    """log P(M / s > c) from the mixture table ``curve`` (filled on demand)."""
+    edges = curve[0]
+    if c < edges[0] or c >= edges[edges.size - 1]:
+        return mixture_log_sf(base, c, nu, w_median)[0]
+    j = find_panel(edges, c)
+    if not curve[2][j]:
+        _fill_mixture_panel(curve, base, nu, w_median, j)
+    return cheb_panel(edges, curve[1], j, c)
+
+
+@njit(cache=True)
+def curve_log_sf_many(curve, base, nu, w_median, c):
+    out = np.empty(c.size)
+    for i in range(c.size):
+        out[i] = curve_log_sf(curve, base, nu, w_median, c[i])
+    return out
+
+
+@njit(cache=True)
+def curve_quantile(curve, base, nu, w_median, log_alpha):
+    """c with log P(M / s > c) = log alpha on the tabulated curve: bracket by
+    doubling, then bisection to the last bits (the curve is monotone)."""
+    lo = 0.0
+    hi = 1.0
+    while curve_log_sf(curve, base, nu, w_median, hi) > log_alpha:
+        lo = hi
+        hi *= 2.0
+    for _ in range(200):
+        mid = 0.5 * (lo + hi)
+        if curve_log_sf(curve, base, nu, w_median, mid) > log_alpha:
+            lo = mid
+        else:
+            hi = mid
+        if hi - lo <= 4e-16 * hi:
+            break
+    return hi

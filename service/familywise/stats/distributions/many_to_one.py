@@ -40,7 +40,7 @@ import numpy as np
 from numpy.typing import ArrayLike
 
 from familywise.stats.distributions import _kernels as kernels
-from familywise.stats.distributions._tables import max_table
+from familywise.stats.distributions._tables import TabulatedDistribution, max_table, mixture_curve
 
 ALTERNATIVES = ("two_sided", "one_sided")
 
@@ -58,7 +58,11 @@ def _table(lambdas: ArrayLike, alternative: str) -> tuple[tuple, float]:
         # The two-sided probability depends on the lambdas only up to sign.
         lam = np.abs(lam)
     distinct, counts = np.unique(lam, return_counts=True)
-    return max_table(tuple(distinct.tolist()), tuple(counts.tolist()), two_sided)
+    return max_table(*_key(distinct, counts, two_sided))
+
+
+def _key(distinct: np.ndarray, counts: np.ndarray, two_sided: bool) -> tuple:
+    return tuple(distinct.tolist()), tuple(counts.tolist()), two_sided
 
 
 def _validate_df(df: ArrayLike) -> np.ndarray:
@@ -112,3 +116,16 @@ def many_to_one_isf(
     df = float(_validate_df(df))
     table, median = _table(lambdas, alternative)
     return float(kernels.mixture_quantile(table, math.log(alpha), df, median, 40.0))
+
+
+def many_to_one_curve(lambdas: ArrayLike, df: float, alternative: str = "two_sided") -> TabulatedDistribution:
+    """The many-to-one maximum for these lambdas and df as a tabulated curve
+    (the families' fast path for recurring designs)."""
+    df = float(_validate_df(df))
+    table, median = _table(lambdas, alternative)
+    lam = np.asarray(lambdas, dtype=float).ravel()
+    if alternative == "two_sided":
+        lam = np.abs(lam)
+    distinct, counts = np.unique(lam, return_counts=True)
+    key = ("max", *_key(distinct, counts, alternative == "two_sided"))
+    return TabulatedDistribution(table, median, mixture_curve(key, df), df)

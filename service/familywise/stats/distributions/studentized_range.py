@@ -37,7 +37,7 @@ import numpy as np
 from numpy.typing import ArrayLike
 
 from familywise.stats.distributions import _kernels as kernels
-from familywise.stats.distributions._tables import range_table
+from familywise.stats.distributions._tables import TabulatedDistribution, mixture_curve, range_table
 
 MAX_GROUPS = 1000
 
@@ -88,3 +88,11 @@ def studentized_range_isf(alpha: float, k: int, df: float) -> float:
         raise ValueError("alpha must lie in (0, 0.5]")
     table, median = range_table(int(k))
     return float(kernels.mixture_quantile(table, math.log(alpha), df, median, 64.0))
+
+
+def studentized_range_curve(k: int, df: float) -> TabulatedDistribution:
+    """The studentized range for (k, df) as a tabulated curve (the families'
+    fast path for recurring designs; see _tables.TabulatedDistribution)."""
+    df = float(_validate(k, df))
+    table, median = range_table(int(k))
+    return TabulatedDistribution(table, median, mixture_curve(("range", int(k)), df), df)

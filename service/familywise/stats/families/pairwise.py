@@ -1,0 +1,263 @@
+"""All pairwise comparisons.
+
+Rows come in the order of the groups: (1, 2), (1, 3), ..., (k-1, k), with
+``difference = mean(first) - mean(second)``.
+
+Methods
+-------
+tukey_kramer
+    Pooled SE s * sqrt(1/n_i + 1/n_j), p-values and the simultaneous
+    multiplier from the studentized range with k groups and N - k df
+    (Tukey 1953; Kramer 1956). Exact for equal n, conservative for unequal n
+    (Hayter 1984).
+lsd
+    Fisher's least significant difference: the unadjusted pooled t test of
+    each pair. It controls the error of each comparison only; "protected"
+    (Fisher 1935) it declares nothing unless the omnibus F is significant.
+bonferroni, sidak
+    Pooled t with p multiplied by m = k(k-1)/2 (Dunn 1961), or 1 - (1 - p)^m
+    (Šidák 1967); intervals with the matching t quantile.
+holm
+    Holm's (1979) step-down on the pooled t p-values (no intervals).
+games_howell
+    Unequal variances: SE sqrt(s_i²/n_i + s_j²/n_j), Welch-Satterthwaite df
+    per pair, studentized range with k groups (Games and Howell 1976).
+benjamini_hochberg
+    False-discovery rate (Benjamini and Hochberg 1995) on the pooled t
+    p-values, for screening many groups (no intervals).
+dunn
+    Rank-based: mean ranks of the pooled sample, z with the tie correction
+    (Dunn 1964, eq. for z_ij), then an adjustment (Holm by default).
+
+References
+----------
+Tukey, J. W. (1953). The problem of multiple comparisons. Unpublished
+manuscript, reprinted in Collected Works VIII (1994).
+Kramer, C. Y. (1956). Extension of multiple range tests to group means with
+unequal numbers of replications. Biometrics 12, 307-310.
+Hayter, A. J. (1984). A proof of the conjecture that the Tukey-Kramer multiple
+comparisons procedure is conservative. Annals of Statistics 12, 61-75.
+Games, P. A. and Howell, J. F. (1976). Pairwise multiple comparison procedures
+with unequal n's and/or variances. J. Educational Statistics 1, 113-125.
+Dunn, O. J. (1964). Multiple comparisons using rank sums. Technometrics 6, 241-252.
+Fisher, R. A. (1935). The Design of Experiments.
+"""
+
+from __future__ import annotations
+
+import math
+
+import numpy as np
+from scipy import stats
+
+from familywise.stats.data import OneWayData
+from scipy import special
+
+from familywise.stats.distributions import (
+    studentized_range_curve,
+    studentized_range_isf,
+    studentized_range_sf,
+)
+from familywise.stats.errors import DataError
+from familywise.stats.families._common import (
+    ADJUSTMENTS,
+    Comparison,
+    FamilyResult,
+    agreeing_critical_value,
+    mean_differences,
+    pooled,
+)
+from familywise.stats.letters import compact_letter_display
+
+METHODS = ("tukey_kramer", "lsd", "bonferroni", "sidak", "holm", "games_howell",
+           "benjamini_hochberg", "dunn")
+DUNN_ADJUSTMENTS = ("holm", "bonferroni", "sidak", "benjamini_hochberg", "none")
+SQRT2 = math.sqrt(2.0)
+
+
+def pairs(k: int) -> tuple[np.ndarray, np.ndarray]:
+    first, second = np.triu_indices(k, 1)
+    return first, second
+
+
+def pairwise(
+    data: OneWayData,
+    method: str = "tukey_kramer",
+    alpha: float = 0.05,
+    *,
+    protected: bool = False,
+    dunn_adjustment: str = "holm",
+    omnibus_p_value: float | None = None,
+) -> FamilyResult:
+    """All pairwise comparisons by ``method`` (see the module docstring)."""
+    if method not in METHODS:
+        raise DataError("method", f"unknown pairwise method {method!r}", "/method")
+    if method == "dunn":
+        return _dunn(data, alpha, dunn_adjustment)
+    if method == "games_howell":
+        return _games_howell(data, alpha)
+    s, df = pooled(data)
+    first, second = pairs(data.k)
+    m = first.size
+    diff = mean_differences(data, first, second)
+    se = s * np.sqrt(1.0 / data.sizes[first] + 1.0 / data.sizes[second])
+    t = diff / se
+    raw = 2.0 * special.stdtr(df, -np.abs(t))
+    notes: list[str] = []
+    interval = "simultaneous"
+    error_rate = "familywise"
+    if method == "tukey_kramer":
+        curve = studentized_range_curve(data.k, df)
+        p = curve.sf(np.abs(t) * SQRT2)
+        critical = curve.isf(alpha) / SQRT2
+        if not np.all(data.sizes == data.sizes[0]):
+            notes.append("Group sizes differ: the Tukey-Kramer intervals are conservative "
+                         "(their joint coverage is at least, not exactly, 1 - alpha).")
+    elif method == "lsd":
+        p = raw
+        critical = float(stats.t.isf(alpha / 2.0, df))
+        interval = "per_comparison"
+        error_rate = "per_comparison"
+        notes.append(
+            f"Unadjusted t tests: each comparison has error rate alpha, but the chance of at least "
+            f"one false difference among the {m} pairs is up to {min(1.0, m * alpha):.3g} "
+            f"(Bonferroni bound; {1 - (1 - alpha) ** m:.3g} were the tests independent)."
+        )
+    elif method == "bonferroni":
+        p = ADJUSTMENTS["bonferroni"](raw)
+        critical = float(stats.t.isf(alpha / (2.0 * m), df))
+    elif method == "sidak":
+        p = ADJUSTMENTS["sidak"](raw)
+        critical = float(stats.t.isf(-math.expm1(math.log1p(-alpha) / m) / 2.0, df))
+    else:  # holm, benjamini_hochberg
+        p = ADJUSTMENTS[method](raw)
+        critical = None
+        interval = "none"
+        if method == "benjamini_hochberg":
+            error_rate = "false_discovery"
+            notes.append("The false-discovery rate is controlled: among the differences declared, "
+                         "the expected share of false ones is at most alpha.")
+        notes.append("A stepwise procedure gives decisions, not simultaneous intervals.")
+    significant = p < alpha
+    if method == "lsd" and protected:
+        if omnibus_p_value is None:
+            raise DataError("protected-lsd", "the protected LSD needs the omnibus p-value", "/protected")
+        if omnibus_p_value >= alpha:
+            significant = np.zeros(m, dtype=bool)
+            notes.append(f"Protected LSD: the omnibus F test is not significant "
+                         f"(p = {omnibus_p_value:.3g}), so no pair is declared different.")
+        else:
+            notes.append(f"Protected LSD: the omnibus F test is significant (p = {omnibus_p_value:.3g}).")
+    if critical is not None:
+        if method != "lsd" or not protected:
+            critical = agreeing_critical_value(critical, np.abs(t), p, alpha)
+        low, high = diff - critical * se, diff + critical * se
+    else:
+        low = high = [None] * m
+    rows = tuple(
+        Comparison(
+            first=data.labels[i], second=data.labels[j], difference=float(diff[r]), se=float(se[r]),
+            statistic=float(t[r]), df=df, p_value=float(p[r]),
+            ci_low=None if low[r] is None else float(low[r]),
+            ci_high=None if high[r] is None else float(high[r]),
+            significant=bool(significant[r]), unadjusted_p_value=float(raw[r]),
+        )
+        for r, (i, j) in enumerate(zip(first, second, strict=True))
+    )
+    return _finish(data, method, alpha, error_rate, critical, rows, notes, interval, df, s)
+
+
+def _games_howell(data: OneWayData, alpha: float) -> FamilyResult:
+    if np.any(data.sizes < 2):
+        raise DataError("group-size", "Games-Howell needs at least two values in every group", "/groups")
+    var = data.variances
+    if np.any(var <= 0.0):
+        g = int(np.flatnonzero(var <= 0.0)[0])
+        raise DataError("zero-variance", f"group {data.labels[g]!r} has zero variance: "
+                        "Games-Howell standard errors need every group's variance", f"/groups/{g}/values")
+    first, second = pairs(data.k)
+    diff = mean_differences(data, first, second)
+    a, b = var[first] / data.sizes[first], var[second] / data.sizes[second]
+    se = np.sqrt(a + b)
+    df = (a + b) ** 2 / (a * a / (data.sizes[first] - 1.0) + b * b / (data.sizes[second] - 1.0))
+    t = diff / se
+    p = studentized_range_sf(np.abs(t) * SQRT2, data.k, df)
+    rows = []
+    for r, (i, j) in enumerate(zip(first, second, strict=True)):
+        critical = studentized_range_isf(alpha, data.k, float(df[r])) / SQRT2
+        critical = agreeing_critical_value(critical, np.abs(t[r : r + 1]), p[r : r + 1], alpha)
+        rows.append(Comparison(
+            first=data.labels[i], second=data.labels[j], difference=float(diff[r]), se=float(se[r]),
+            statistic=float(t[r]), df=float(df[r]), p_value=float(p[r]),
+            ci_low=float(diff[r] - critical * se[r]), ci_high=float(diff[r] + critical * se[r]),
+            significant=bool(p[r] < alpha), critical_value=float(critical),
+            unadjusted_p_value=float(2.0 * stats.t.sf(abs(t[r]), df[r])),
+        ))
+    notes = ["Each pair has its own SE and Welch degrees of freedom, so each row carries its own "
+             "critical value; the familywise error rate is controlled approximately."]
+    return _finish(data, "games_howell", alpha, "familywise", None, tuple(rows), notes,
+                   "simultaneous", None, None)
+
+
+def _dunn(data: OneWayData, alpha: float, adjustment: str) -> FamilyResult:
+    if adjustment not in DUNN_ADJUSTMENTS:
+        raise DataError("adjustment", f"Dunn's test takes one of {', '.join(DUNN_ADJUSTMENTS)}",
+                        "/dunn_adjustment")
+    pooled_values = np.concatenate(data.deviations)
+    n = pooled_values.size
+    ranks = stats.rankdata(pooled_values)
+    _, ties = np.unique(pooled_values, return_counts=True)
+    variance = n * (n + 1) / 12.0 - np.sum(ties**3 - ties) / (12.0 * (n - 1))
+    if variance <= 0.0:
+        raise DataError("constant-data", "all values are tied: ranks carry no information", "/groups")
+    bounds = np.cumsum(np.concatenate([[0], data.sizes.astype(int)]))
+    mean_ranks = np.array([ranks[bounds[g] : bounds[g + 1]].mean() for g in range(data.k)])
+    first, second = pairs(data.k)
+    rank_diff = mean_ranks[first] - mean_ranks[second]
+    z = rank_diff / np.sqrt(variance * (1.0 / data.sizes[first] + 1.0 / data.sizes[second]))
+    raw = 2.0 * stats.norm.sf(np.abs(z))
+    p = ADJUSTMENTS[adjustment](raw)
+    diff = mean_differences(data, first, second)
+    rows = tuple(
+        Comparison(
+            first=data.labels[i], second=data.labels[j], difference=float(diff[r]), se=None,
+            statistic=float(z[r]), df=None, p_value=float(p[r]), ci_low=None, ci_high=None,
+            significant=bool(p[r] < alpha), unadjusted_p_value=float(raw[r]),
+            rank_difference=float(rank_diff[r]),
+        )
+        for r, (i, j) in enumerate(zip(first, second, strict=True))
+    )
+    error_rate = {"none": "per_comparison", "benjamini_hochberg": "false_discovery"}.get(
+        adjustment, "familywise")
+    notes = [f"Rank-based z statistics (mean-rank difference over its SE, tie-corrected), "
+             f"{'unadjusted' if adjustment == 'none' else adjustment.replace('_', '-') + '-adjusted'}. "
+             "The difference column is the difference in means, for orientation; the test is on ranks, "
+             "so no interval is given."]
+    result = _finish(data, "dunn", alpha, error_rate, None, rows, notes, "none", None, None)
+    return FamilyResult(**{**result.__dict__, "extra": {"adjustment": adjustment}})
+
+
+def _finish(data, method, alpha, error_rate, critical, rows, notes, interval, df, s) -> FamilyResult:
+    k = data.k
+    index = {label: g for g, label in enumerate(data.labels)}
+    different = np.zeros((k, k), dtype=bool)
+    for row in rows:
+        i, j = index[row.first], index[row.second]
+        different[i, j] = different[j, i] = row.significant
+    display = compact_letter_display(data.labels, data.mean_deviations, different)
+    found = sum(row.significant for row in rows)
+    what = {"familywise": "familywise", "per_comparison": "per-comparison",
+            "false_discovery": "false-discovery"}[error_rate]
+    if found:
+        strongest = min(rows, key=lambda r: r.p_value)
+        summary = (f"{found} of {len(rows)} pairs differ at {what} alpha = {alpha:g} "
+                   f"({method.replace('_', '-')}); the clearest is {strongest.first} vs {strongest.second} "
+                   f"(difference {strongest.difference:.4g}, p = {strongest.p_value:.3g}).")
+    else:
+        summary = (f"No pair of the {k} groups differs at {what} alpha = {alpha:g} "
+                   f"({method.replace('_', '-')}).")
+    return FamilyResult(
+        family="pairwise", method=method, alpha=alpha, error_rate=error_rate, critical_value=critical,
+        comparisons=rows, summary=summary, notes=tuple(notes), error_df=df, pooled_sd=s,
+        interval=interval, letters=display.letters, letters_note=display.note,
+    )
