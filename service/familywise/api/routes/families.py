@@ -6,20 +6,17 @@ from typing import Annotated
 
 from fastapi import APIRouter, Body, Response
 
-from familywise.api import examples
-from familywise.api.routing import ACCEPTS_CSV, FamilywiseRoute, json_response, one_way_data
+from familywise.api import examples, operations
+from familywise.api.routing import ACCEPTS_CSV, FamilywiseRoute, json_response
 from familywise.api.schemas.families import (
     BestRequest,
     ContrastsRequest,
     ControlRequest,
+    EquivalenceRequest,
     FamilyResponse,
     PairwiseRequest,
 )
 from familywise.api.schemas.problem import STANDARD_REFUSALS
-from familywise.api.serialize import family_json, provenance
-from familywise.stats import contrasts as contrast_rules
-from familywise.stats.families import contrast_family, pairwise, versus_best, versus_control
-from familywise.stats.omnibus import anova_table
 
 router = APIRouter(route_class=FamilywiseRoute, tags=["follow-up families"])
 
@@ -28,8 +25,8 @@ def _example(summary: str, value: dict) -> dict:
     return {"plate": {"summary": summary, "value": value}}
 
 
-def _respond(result, request) -> Response:
-    return json_response({**family_json(result), "provenance": provenance(request)})
+def _respond(run, request) -> Response:
+    return json_response(operations.with_provenance(run(request), request))
 
 
 @router.post(
@@ -46,11 +43,7 @@ async def pairwise_endpoint(
 ) -> Response:
     """Every pair of groups, by the chosen method; `letters` gives the compact letter
     display (groups sharing a letter are not significantly different)."""
-    data = one_way_data(request.groups)
-    omnibus_p = anova_table(data).p_value if request.method == "lsd" and request.protected else None
-    result = pairwise(data, request.method, request.alpha, protected=request.protected,
-                      dunn_adjustment=request.dunn_adjustment, omnibus_p_value=omnibus_p)
-    return _respond(result, request)
+    return _respond(operations.run_pairwise, request)
 
 
 @router.post(
@@ -67,9 +60,7 @@ async def control_endpoint(
 ) -> Response:
     """Each group against `control`: `first` is the treatment, `second` the control.
     Exact for unequal group sizes; one-sided alternatives give one-sided intervals."""
-    result = versus_control(one_way_data(request.groups), request.control, request.method,
-                            request.alternative, request.alpha)
-    return _respond(result, request)
+    return _respond(operations.run_control, request)
 
 
 @router.post(
@@ -86,8 +77,7 @@ async def best_endpoint(
 ) -> Response:
     """Constrained simultaneous intervals for each mean minus the best of the others,
     `may_be_best` per group and `best_set`, exact for unequal group sizes."""
-    result = versus_best(one_way_data(request.groups), request.best, request.alpha)
-    return _respond(result, request)
+    return _respond(operations.run_best, request)
 
 
 @router.post(
@@ -103,9 +93,24 @@ async def contrasts_endpoint(
 ) -> Response:
     """Estimate, SE, t, p, interval, sum of squares and F of each contrast
     (coefficients keyed by group label, summing to zero), with the chosen adjustment."""
-    data = one_way_data(request.groups)
-    names, matrix = contrast_rules.coefficient_matrix(
-        data.labels, [(c.name, c.coefficients) for c in request.contrasts])
-    contrast_rules.require_contrasts_sum_to_zero(names, matrix)
-    result = contrast_family(data, names, matrix, request.adjustment, request.alpha)
-    return _respond(result, request)
+    return _respond(operations.run_contrasts, request)
+
+
+@router.post(
+    "/v1/followup/equivalence",
+    response_model=FamilyResponse,
+    summary="Each candidate against a reference within a margin (equivalence, non-inferiority)",
+    responses=STANDARD_REFUSALS,
+    openapi_extra=ACCEPTS_CSV,
+)
+async def equivalence_endpoint(
+    request: Annotated[EquivalenceRequest, Body(openapi_examples=_example(
+        "Are the new buffers within 2 U/mg of the reference?", examples.with_fields(
+            examples.BUFFER_PLATE, reference="reference buffer", margin=2.0, kind="equivalence",
+            method="dunnett_tost")))],
+) -> Response:
+    """Two one-sided tests per candidate against `reference` within `margin`
+    (absolute, or relative to the reference mean); `equivalent`, `non_inferior` or
+    `non_superior` per candidate, both one-sided p-values, and the interval at the
+    level the method implies."""
+    return _respond(operations.run_equivalence, request)

@@ -6,12 +6,10 @@ from typing import Annotated
 
 from fastapi import APIRouter, Body, Response
 
-from familywise.api import examples
-from familywise.api.routing import ACCEPTS_CSV, FamilywiseRoute, json_response, one_way_data
+from familywise.api import examples, operations
+from familywise.api.routing import ACCEPTS_CSV, FamilywiseRoute, json_response
 from familywise.api.schemas.omnibus import OmnibusRequest, OmnibusResponse
 from familywise.api.schemas.problem import STANDARD_REFUSALS
-from familywise.api.serialize import plain, provenance
-from familywise.stats.omnibus import omnibus
 
 router = APIRouter(route_class=FamilywiseRoute, tags=["omnibus"])
 
@@ -35,5 +33,4 @@ async def omnibus_endpoint(
     interval; the ANOVA table; Welch's and Brown-Forsythe's tests of equal means;
     Kruskal-Wallis; Levene (median) and Shapiro-Wilk diagnostics with plain-language
     notes on what they mean for the follow-up; eta², omega², Cohen's f."""
-    result = omnibus(one_way_data(request.groups), request.alpha)
-    return json_response({**plain(result), "provenance": provenance(request)})
+    return json_response(operations.with_provenance(operations.run_omnibus(request), request))

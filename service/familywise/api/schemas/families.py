@@ -12,7 +12,8 @@ PairwiseMethod = Literal["tukey_kramer", "lsd", "bonferroni", "sidak", "holm", "
                          "benjamini_hochberg", "dunn"]
 ControlMethod = Literal["dunnett", "dunnett_stepdown"]
 Alternative = Literal["two_sided", "greater", "less"]
-ContrastAdjustment = Literal["none", "bonferroni", "sidak", "holm", "multivariate_t", "scheffe"]
+ContrastAdjustment = Literal["none", "bonferroni", "sidak", "holm", "benjamini_hochberg", "multivariate_t",
+                             "scheffe"]
 DunnAdjustment = Literal["holm", "bonferroni", "sidak", "benjamini_hochberg", "none"]
 
 
@@ -72,10 +73,16 @@ class ComparisonOut(BaseModel):
     f: float | None = None
     rank_difference: float | None = None
     may_be_best: bool | None = None
+    p_lower: float | None = Field(None, description="Equivalence: p-value of the lower one-sided test.")
+    p_upper: float | None = Field(None, description="Equivalence: p-value of the upper one-sided test.")
+    equivalent: bool | None = None
+    non_inferior: bool | None = None
+    non_superior: bool | None = None
+    conclusion: str | None = Field(None, description="Equivalence: the finding in a sentence.")
 
 
 class FamilyResponse(BaseModel):
-    family: Literal["pairwise", "control", "best", "contrasts"]
+    family: Literal["pairwise", "control", "best", "contrasts", "equivalence"]
     method: str
     alpha: float
     error_rate: Literal["familywise", "per_comparison", "false_discovery"]
@@ -97,3 +104,26 @@ class FamilyResponse(BaseModel):
         None, description="Bound on the absolute error of Monte Carlo probabilities, when used.")
     extra: dict[str, str | float | None]
     provenance: Provenance
+
+
+class FamilyResult(FamilyResponse):
+    """A family's result inside a larger response (no provenance of its own)."""
+
+    provenance: None = Field(None, exclude=True)
+
+
+class RelativeMargin(Strict):
+    relative: Number = Field(description="The margin as a fraction of the reference mean's magnitude.")
+
+
+class EquivalenceRequest(GroupsRequest):
+    reference: Label = Field(description="Label of the reference group.")
+    margin: Number | RelativeMargin = Field(
+        description="Equivalence margin: a positive number in data units, or {\"relative\": 0.1} as a "
+                    "fraction of the reference mean's magnitude.")
+    kind: Literal["equivalence", "non_inferiority", "non_superiority"] = Field(
+        "equivalence", description="equivalence (both sides), non_inferiority (not worse than reference by "
+                                   "more than the margin), non_superiority.")
+    method: Literal["dunnett_tost", "bonferroni_tost", "tost"] = Field(
+        "dunnett_tost", description="dunnett_tost (simultaneous, familywise), bonferroni_tost, tost "
+                                    "(per comparison).")

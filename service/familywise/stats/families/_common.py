@@ -53,6 +53,12 @@ class Comparison:
     f: float | None = None
     rank_difference: float | None = None
     may_be_best: bool | None = None
+    p_lower: float | None = None
+    p_upper: float | None = None
+    equivalent: bool | None = None
+    non_inferior: bool | None = None
+    non_superior: bool | None = None
+    conclusion: str | None = None
 
 
 @dataclass(frozen=True)

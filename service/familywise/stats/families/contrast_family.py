@@ -10,7 +10,7 @@ none
     Each contrast at level alpha: right for a small set of planned,
     orthogonal contrasts (orthogonal under the actual group sizes:
     sum c_i d_i / n_i = 0).
-bonferroni, sidak, holm
+bonferroni, sidak, holm, benjamini_hochberg
     As for pairwise comparisons, over the m contrasts.
 multivariate_t
     Exact simultaneous inference for this set: the maximum of |T| for the
@@ -51,7 +51,7 @@ from familywise.stats.families._common import (
     pooled,
 )
 
-ADJUSTMENT_NAMES = ("none", "bonferroni", "sidak", "holm", "multivariate_t", "scheffe")
+ADJUSTMENT_NAMES = ("none", "bonferroni", "sidak", "holm", "benjamini_hochberg", "multivariate_t", "scheffe")
 
 
 def contrast_family(
@@ -96,11 +96,15 @@ def contrast_family(
     elif adjustment == "sidak":
         p = ADJUSTMENTS["sidak"](raw)
         critical = float(stats.t.isf(-math.expm1(math.log1p(-alpha) / m) / 2.0, df))
-    elif adjustment == "holm":
-        p = ADJUSTMENTS["holm"](raw)
+    elif adjustment in ("holm", "benjamini_hochberg"):
+        p = ADJUSTMENTS[adjustment](raw)
         critical = None
         interval = "none"
-        notes.append("Holm's step-down gives decisions, not simultaneous intervals.")
+        if adjustment == "benjamini_hochberg":
+            error_rate = "false_discovery"
+            notes.append("False-discovery rate: among the contrasts declared non-zero, the expected share "
+                         "of false ones is at most alpha.")
+        notes.append("A stepwise procedure gives decisions, not simultaneous intervals.")
     elif adjustment == "scheffe":
         q = data.k - 1
         p = stats.f.sf(t * t / q, q, df)
@@ -127,7 +131,7 @@ def contrast_family(
         for r in range(m)
     )
     found = [row.name for row in rows if row.significant]
-    rate = "familywise" if error_rate == "familywise" else "per-contrast"
+    rate = {"familywise": "familywise", "false_discovery": "false-discovery"}.get(error_rate, "per-contrast")
     if found:
         summary = (f"{len(found)} of {m} contrasts are non-zero at {rate} alpha = {alpha:g} "
                    f"({adjustment.replace('_', ' ')}): {', '.join(found)}.")

@@ -48,11 +48,9 @@ from __future__ import annotations
 import math
 
 import numpy as np
-from scipy import stats
+from scipy import special, stats
 
 from familywise.stats.data import OneWayData
-from scipy import special
-
 from familywise.stats.distributions import (
     studentized_range_curve,
     studentized_range_isf,

@@ -1,0 +1,196 @@
+"""One function per operation: validated request model in, JSON-ready result out.
+
+The endpoints, the one-call analysis and the batch endpoint all go through
+these functions, so that an analysis or a batch item gives exactly what the
+single endpoint gives.
+"""
+
+from __future__ import annotations
+
+from collections.abc import Callable
+from typing import Any
+
+from pydantic import BaseModel, ValidationError
+
+from familywise.api.routing import one_way_data
+from familywise.api.schemas.families import (
+    BestRequest,
+    ContrastsRequest,
+    ControlRequest,
+    EquivalenceRequest,
+    PairwiseRequest,
+)
+from familywise.api.schemas.guidance import RecommendationRequest
+from familywise.api.schemas.omnibus import OmnibusRequest
+from familywise.api.serialize import family_json, plain, provenance
+from familywise.stats import contrasts as contrast_rules
+from familywise.stats.errors import DataError
+from familywise.stats.families import contrast_family, pairwise, versus_best, versus_control
+from familywise.stats.families.equivalence import equivalence_family
+from familywise.stats.omnibus import anova_table, omnibus
+from familywise.stats.planning import cohens_f_from_means, plan_family, plan_omnibus
+from familywise.stats.recommend import Question, recommend
+
+
+def with_provenance(result: dict[str, Any], request: BaseModel) -> dict[str, Any]:
+    return {**result, "provenance": provenance(request)}
+
+
+def run_omnibus(request) -> dict[str, Any]:
+    return plain(omnibus(one_way_data(request.groups), request.alpha))
+
+
+def run_pairwise(request) -> dict[str, Any]:
+    data = one_way_data(request.groups)
+    omnibus_p = anova_table(data).p_value if request.method == "lsd" and request.protected else None
+    return family_json(pairwise(data, request.method, request.alpha, protected=request.protected,
+                                dunn_adjustment=request.dunn_adjustment, omnibus_p_value=omnibus_p))
+
+
+def run_control(request) -> dict[str, Any]:
+    return family_json(versus_control(one_way_data(request.groups), request.control, request.method,
+                                      request.alternative, request.alpha))
+
+
+def run_best(request) -> dict[str, Any]:
+    return family_json(versus_best(one_way_data(request.groups), request.best, request.alpha))
+
+
+def run_contrasts(request) -> dict[str, Any]:
+    data = one_way_data(request.groups)
+    names, matrix = contrast_rules.coefficient_matrix(
+        data.labels, [(c.name, c.coefficients) for c in request.contrasts])
+    contrast_rules.require_contrasts_sum_to_zero(names, matrix)
+    return family_json(contrast_family(data, names, matrix, request.adjustment, request.alpha))
+
+
+def run_equivalence(request) -> dict[str, Any]:
+    margin = request.margin
+    relative = not isinstance(margin, float)
+    value = margin.relative if relative else margin
+    return family_json(equivalence_family(one_way_data(request.groups), request.reference, value, relative,
+                                          request.kind, request.method, request.alpha))
+
+
+FAMILY_MODELS: dict[str, type[BaseModel]] = {
+    "pairwise": PairwiseRequest,
+    "control": ControlRequest,
+    "best": BestRequest,
+    "contrasts": ContrastsRequest,
+    "equivalence": EquivalenceRequest,
+}
+
+FAMILY_RUNNERS: dict[str, Callable[[Any], dict[str, Any]]] = {
+    "pairwise": run_pairwise,
+    "control": run_control,
+    "best": run_best,
+    "contrasts": run_contrasts,
+    "equivalence": run_equivalence,
+}
+
+
+def run_recommendation(request) -> dict[str, Any]:
+    q = request.question
+    question = Question(
+        planned=q.planned, reference=q.reference, control=q.control, best=q.best, alternative=q.alternative,
+        error_rate=q.error_rate, contrasts=tuple((c.name, c.coefficients) for c in q.contrasts),
+        intervals_needed=q.intervals_needed, goal=q.goal,
+        margin=None if q.margin is None else (q.margin if isinstance(q.margin, float)
+                                              else {"relative": q.margin.relative}),
+    )
+    data = one_way_data(request.groups) if request.groups is not None else None
+    return plain(recommend(question, data, request.sizes, request.alpha))
+
+
+def _family_request(family: str, method: str | None, options: dict[str, Any], request) -> BaseModel:
+    """The request a family's own endpoint would take, from a method and options."""
+    base: dict[str, Any] = {"groups": request.groups, "alpha": request.alpha}
+    fields = {k: v for k, v in options.items() if v is not None}
+    if family == "contrasts":
+        fields["adjustment"] = method or fields.get("adjustment", "none")
+    elif method is not None:
+        fields["method"] = method
+    if family == "best":
+        fields.pop("method", None)
+    return FAMILY_MODELS[family].model_validate({**base, **fields})
+
+
+def run_analysis(request) -> dict[str, Any]:
+    omnibus_result = run_omnibus(OmnibusRequest(groups=request.groups, alpha=request.alpha))
+    recommendation = run_recommendation(
+        RecommendationRequest(question=request.question, groups=request.groups, alpha=request.alpha))
+    if request.followup is not None:
+        choice = request.followup.model_dump(exclude_none=True)
+        family, method = choice.pop("family"), choice.pop("method", None)
+        source, pointer = "requested", "/followup"
+    else:
+        family, method, choice = recommendation["family"], recommendation["method"], recommendation["options"]
+        source, pointer = "recommended", "/question"
+    if family == "equivalence" and "margin" not in choice:
+        raise DataError("margin", "equivalence needs a margin: give question.margin or followup.margin",
+                        f"{pointer}/margin")
+    try:
+        family_request = _family_request(family, method, choice, request)
+    except ValidationError as exc:
+        first = exc.errors(include_url=False)[0]
+        location = "/".join(str(p) for p in first["loc"])
+        raise DataError("followup", f"the follow-up options are not valid for {family!r}: "
+                        f"{location}: {first['msg']}", f"{pointer}/{location}") from None
+    followup = FAMILY_RUNNERS[family](family_request)
+    return {
+        "omnibus": omnibus_result,
+        "recommendation": recommendation,
+        "followup": followup,
+        "followup_source": source,
+        "report": _report(omnibus_result, recommendation, followup, source),
+    }
+
+
+def _report(omnibus_result: dict, recommendation: dict, followup: dict, source: str) -> list[str]:
+    anova = omnibus_result["anova"]
+    k = len(omnibus_result["groups"])
+    lines = [
+        f"{k} groups, {sum(g['n'] for g in omnibus_result['groups'])} values. One-way ANOVA: "
+        f"F({anova['between']['df']}, {anova['within']['df']}) = {anova['f']:.4g}, p = {anova['p_value']:.3g}; "
+        f"R² = {anova['r_squared']:.3g}.",
+    ]
+    welch = omnibus_result["welch"]
+    if welch["p_value"] is not None:
+        lines.append(f"Welch's test of equal means: F = {welch['statistic']:.4g}, p = {welch['p_value']:.3g}.")
+    lines.extend(omnibus_result["diagnostics"]["notes"][:2])
+    chosen = f"{followup['family']} / {followup['method']}"
+    if source == "recommended":
+        lines.append(f"Follow-up (recommended): {chosen}. {recommendation['reasons'][0]}")
+    else:
+        lines.append(f"Follow-up (as requested): {chosen}; the recommendation was "
+                     f"{recommendation['family']} / {recommendation['method']}.")
+    lines.append(followup["summary"])
+    lines.append(recommendation["cautions"][-1])
+    return lines
+
+
+def run_plan(request) -> dict[str, Any]:
+    effect = request.effect
+    if effect.cohens_f is not None and effect.means is not None:
+        raise DataError("contradiction", "give Cohen's f or the means, not both", "/effect")
+    if effect.means is not None and len(effect.means) != request.k:
+        raise DataError("means", f"{len(effect.means)} means for k = {request.k} groups", "/effect/means")
+    if effect.means is not None and effect.sd is None:
+        raise DataError("sd", "the means need the within-group SD", "/effect/sd")
+    if request.family == "omnibus":
+        if request.difference is not None or request.method is not None:
+            raise DataError("contradiction", "difference and method are for follow-up families; set family",
+                            "/family")
+        if effect.cohens_f is None and effect.means is None:
+            raise DataError("effect", "give Cohen's f, or the means and SD", "/effect")
+        f = effect.cohens_f if effect.cohens_f is not None else cohens_f_from_means(effect.means, effect.sd)
+        return plain(plan_omnibus(request.k, request.alpha, request.power, f))
+    if effect.sd is None:
+        raise DataError("sd", "a follow-up family needs the within-group SD", "/effect/sd")
+    difference = request.difference
+    if difference is None:
+        if effect.means is None:
+            raise DataError("difference", "give the difference to detect (or the means)", "/difference")
+        difference = max(effect.means) - min(effect.means)
+    return plain(plan_family(request.family, request.method, request.k, request.alpha, request.power,
+                             difference, effect.sd, request.alternative))
