@@ -53,7 +53,7 @@ def test_dunnett_matches_scipy_within_its_error(alternative, seed) -> None:
 
 def test_single_comparison_with_control_is_student_t() -> None:
     # One treatment: Dunnett reduces to the pooled t test (scipy.stats.t).
-    groups, data = _data(3, sizes=(6, 9))
+    _groups, data = _data(3, sizes=(6, 9))
     ours = versus_control(data, "g0")
     row = ours.comparisons[0]
     assert row.p_value == pytest.approx(2 * stats.t.sf(abs(row.statistic), 13), rel=1e-12)
@@ -73,7 +73,7 @@ def _mvt_sf(c, lam, df, two_sided=True, seed=11):
 def test_dunnett_stepdown_by_closed_testing() -> None:
     # Dunnett and Tamhane (1991): step r compares the r-th largest |t| with the
     # maximum over the hypotheses not yet rejected; adjusted p made monotone.
-    groups, data = _data(5, spread=0.4)
+    _groups, data = _data(5, spread=0.4)
     ours = versus_control(data, "g0", "dunnett_stepdown")
     single = versus_control(data, "g0", "dunnett")
     n = np.array(SIZES, dtype=float)

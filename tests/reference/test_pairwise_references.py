@@ -165,7 +165,7 @@ def test_dunn_formula(adjustment) -> None:
 def test_letters_follow_the_decisions() -> None:
     # Compact letter display (Piepho 2004): groups share a letter exactly when
     # the method does not separate them; 'a' goes to the highest mean.
-    groups, data = _data(2, (8, 7, 9, 8, 6, 10))
+    _groups, data = _data(2, (8, 7, 9, 8, 6, 10))
     result = pairwise(data, "tukey_kramer")
     letters = result.letters
     for row in result.comparisons:

@@ -223,10 +223,8 @@ def _exact_order(exact: list[Decimal], floats: list[float], centre: Decimal) -> 
     n = len(exact)
     mean = centre + sum(exact, Decimal(0)) / n
     middle = ranked[n // 2]
-    if n % 2:
-        median = centre + exact[middle]
-    else:
-        median = centre + (exact[ranked[n // 2 - 1]] + exact[middle]) / 2
+    pair = exact[middle] if n % 2 else (exact[ranked[n // 2 - 1]] + exact[middle]) / 2
+    median = centre + pair
     return float(mean), float(median), float(centre + exact[ranked[0]]), float(centre + exact[ranked[-1]])
 
 

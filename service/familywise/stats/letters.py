@@ -132,7 +132,7 @@ def _python_insert_absorb(different: np.ndarray) -> list[int]:
     k = different.shape[0]
     rows = different.tolist()
     columns = [(1 << k) - 1]
-    for i, j in ((i, j) for i in range(k) for j in range(i + 1, k) if rows[i][j]):
+    for i, j in [(a, b) for a in range(k) for b in range(a + 1, k) if rows[a][b]]:
         both = (1 << i) | (1 << j)
         kept = [c for c in columns if c & both != both]
         split = [c & ~(1 << i) for c in columns if c & both == both]

@@ -1,5 +1,5 @@
 """Routers of the service, in the order they appear in the schema."""
 
-from familywise.api.routes import health, omnibus
+from familywise.api.routes import contrasts, families, guidance, health, omnibus
 
-ROUTERS = [health.router, omnibus.router]
+ROUTERS = [health.router, omnibus.router, contrasts.router, families.router, guidance.router]

@@ -23,6 +23,7 @@ from __future__ import annotations
 
 import math
 from functools import lru_cache
+
 import numpy as np
 from numpy.typing import ArrayLike
 from scipy import special, stats
@@ -55,7 +56,7 @@ class MaxAbsT:
         chol = self._chol
         m = chol.shape[0]
         bound = np.asarray(c, dtype=float)[:, None, None] * self._scale  # c x shifts x points
-        y = np.zeros(bound.shape + (max(m - 1, 0),))
+        y = np.zeros((*bound.shape, max(m - 1, 0)))
         product = np.ones(bound.shape)
         for i in range(m):
             shift = y[..., :i] @ chol[i, :i] if i else 0.0
