@@ -8,9 +8,11 @@ matters (familywise, per comparison, false discovery), then what the data
 say about the assumptions (unequal variances, non-normality with small
 groups, imbalance, a non-significant omnibus F).
 
-Thresholds for "markedly" unequal variances, "small" groups and "very"
-unbalanced designs are those of :mod:`familywise.stats.omnibus` (common
-practice, no source).
+Variances count as markedly unequal when Levene's test (median-centred)
+rejects at alpha or the largest/smallest variance ratio exceeds 10 (with
+small groups the sample ratio often exceeds the rule-of-thumb 4 under equal
+variances); "small" groups and "very" unbalanced designs as in
+:mod:`familywise.stats.omnibus`. All three are common practice, no source.
 
 References
 ----------
@@ -30,7 +32,6 @@ from familywise.stats.data import OneWayData
 from familywise.stats.errors import DataError
 from familywise.stats.omnibus import (
     MARKED_IMBALANCE,
-    MARKED_VARIANCE_RATIO,
     SMALL_GROUP,
     HypothesisTest,
     anova_table,
@@ -38,6 +39,7 @@ from familywise.stats.omnibus import (
     shapiro_wilk_residuals,
 )
 
+RECOMMENDATION_VARIANCE_RATIO = 10.0
 STATISTICIAN = (
     "familywise supports, and does not replace, a qualified statistician and the regulations and "
     "local procedures that apply to your work; choose the family before seeing the data."
@@ -110,7 +112,7 @@ def findings(data: OneWayData, alpha: float) -> Findings:
     smallest = int(data.sizes.min())
     size_ratio = float(data.sizes.max() / data.sizes.min())
     unequal = (ratio is None and var.size >= 2 and var.max() > 0) or (
-        ratio is not None and ratio > MARKED_VARIANCE_RATIO) or (levene_p is not None and levene_p < alpha)
+        ratio is not None and ratio > RECOMMENDATION_VARIANCE_RATIO) or (levene_p is not None and levene_p < alpha)
     return Findings(
         variance_ratio=ratio, levene_p_value=levene_p, shapiro_p_value=shapiro_p,
         smallest_group=smallest, size_ratio=size_ratio, omnibus_p_value=omnibus_p,
