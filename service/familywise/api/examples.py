@@ -67,3 +67,19 @@ CONTRASTS_HELMERT_SIZES = {
     "sizes": {g["label"]: len(g["values"]) for g in UNBALANCED_PLATE["groups"]},
     "standard": {"kind": "helmert"},
 }
+
+#: The figures: the buffer plate's means with the Tukey-Kramer letters, its
+#: pairwise differences, and the unbalanced plate's one-sided comparisons with
+#: the reference buffer (is any new formulation more active?).
+FIGURE_MEANS = {**BUFFER_PLATE, "value_label": "specific activity (U/mg)",
+                "title": "Buffer plate: specific activity by formulation",
+                "interval": "group", "letters_method": "tukey_kramer"}
+
+FIGURE_DIFFERENCES_PAIRWISE = {**BUFFER_PLATE, "family": "pairwise", "method": "tukey_kramer",
+                               "value_label": "specific activity (U/mg)",
+                               "title": "Buffer plate: every pair of formulations"}
+
+FIGURE_DIFFERENCES_CONTROL = {**UNBALANCED_PLATE, "family": "control", "control": "reference buffer",
+                              "method": "dunnett", "alternative": "greater",
+                              "value_label": "specific activity (U/mg)",
+                              "title": "Unbalanced plate: which formulations beat the reference buffer"}

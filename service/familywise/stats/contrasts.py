@@ -735,7 +735,10 @@ def validate_contrasts(
     if data is not None:
         dev = data.mean_deviations
         for i in range(m):
-            estimates[i] = math.fsum((c[i] * dev).tolist()) + data.centre * math.fsum(c[i].tolist())
+            if zero_sums[i]:
+                estimates[i] = float(data.contrast_estimates(c[i : i + 1])[0])
+            else:
+                estimates[i] = math.fsum((c[i] * dev).tolist()) + data.centre * math.fsum(c[i].tolist())
             if zero_sums[i]:
                 ss[i] = math.fsum((scaled[i] * dev).tolist()) ** 2 / factors[i]
 

@@ -123,6 +123,33 @@ class OneWayData:
         return np.concatenate([[0], np.cumsum(self.sizes[:-1])]).astype(np.intp)
 
     @cached_property
+    def exact_mean_deviations(self) -> tuple[Decimal, ...] | None:
+        """Each group's mean deviation in decimal (None for float data)."""
+        if self.exact is None:
+            return None
+        with localcontext(_WIDE):
+            return tuple(sum(e, Decimal(0)) / len(e) for e in self.exact)
+
+    def mean_differences(self, first: np.ndarray, second: np.ndarray) -> np.ndarray:
+        """mean(first) - mean(second) for index arrays, correctly rounded from
+        the exact decimals when there are any (the common centre cancels)."""
+        exact = self.exact_mean_deviations
+        if exact is None:
+            return self.mean_deviations[first] - self.mean_deviations[second]
+        with localcontext(_WIDE):
+            return np.array([float(exact[i] - exact[j]) for i, j in zip(first, second, strict=True)])
+
+    def contrast_estimates(self, matrix: np.ndarray) -> np.ndarray:
+        """sum_i c_i mean_i for each row of ``matrix`` (coefficients sum to zero,
+        so the centre cancels), from the exact decimals when there are any."""
+        exact = self.exact_mean_deviations
+        if exact is None:
+            return np.asarray(matrix, dtype=float) @ self.mean_deviations
+        with localcontext(_WIDE):
+            return np.array([float(sum((Decimal(c) * m for c, m in zip(row, exact, strict=True)), Decimal(0)))
+                             for row in np.asarray(matrix, dtype=float).tolist()])
+
+    @cached_property
     def exact_order(self) -> np.ndarray | None:
         """(k, 4) array of each group's mean, median, minimum and maximum from
         the exact decimals (None when the data came as floats)."""

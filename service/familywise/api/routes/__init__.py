@@ -1,5 +1,5 @@
 """Routers of the service, in the order they appear in the schema."""
 
-from familywise.api.routes import contrasts, families, guidance, health, omnibus
+from familywise.api.routes import contrasts, families, figures, guidance, health, omnibus
 
-ROUTERS = [health.router, omnibus.router, contrasts.router, families.router, guidance.router]
+ROUTERS = [health.router, omnibus.router, contrasts.router, families.router, guidance.router, figures.router]

@@ -90,8 +90,8 @@ def pooled(data: OneWayData) -> tuple[float, float]:
 
 
 def mean_differences(data: OneWayData, first: np.ndarray, second: np.ndarray) -> np.ndarray:
-    """mean(first) - mean(second) from the deviations (the common centre cancels exactly)."""
-    return data.mean_deviations[first] - data.mean_deviations[second]
+    """mean(first) - mean(second), correctly rounded (see OneWayData.mean_differences)."""
+    return data.mean_differences(first, second)
 
 
 # --------------------------------------------------------------------------

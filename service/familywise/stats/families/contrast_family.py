@@ -69,7 +69,7 @@ def contrast_family(
     s, df = pooled(data)
     c = np.asarray(matrix, dtype=float)
     m = c.shape[0]
-    estimate = c @ data.mean_deviations
+    estimate = data.contrast_estimates(c)
     factor = np.sqrt(np.sum(c * c / data.sizes, axis=1))
     se = s * factor
     t = estimate / se
