@@ -4,7 +4,9 @@ from __future__ import annotations
 
 import argparse
 import json
+import os
 import sys
+import tempfile
 
 DEMO_REQUEST = (
     "curl -s -X POST http://{host}:{port}/v1/followup/pairwise -H 'content-type: application/json' "
@@ -18,6 +20,7 @@ DEMO_REQUEST = (
 def _serve(args: argparse.Namespace) -> int:
     import uvicorn
 
+    from familywise.api import logs
     from familywise.api.settings import Settings
 
     try:
@@ -25,6 +28,9 @@ def _serve(args: argparse.Namespace) -> int:
     except (ValueError, OSError) as exc:
         print(f"familywise: invalid configuration: {exc}", file=sys.stderr)
         return 2
+    if args.workers > 1 and not os.environ.get("PROMETHEUS_MULTIPROC_DIR"):
+        # Each worker writes its metrics here; /metrics aggregates them.
+        os.environ["PROMETHEUS_MULTIPROC_DIR"] = tempfile.mkdtemp(prefix="familywise-metrics-")
     print(f"familywise: interactive API docs at http://{args.host}:{args.port}/docs", flush=True)
     print("familywise: try a request:", flush=True)
     print("  " + DEMO_REQUEST.format(host=args.host, port=args.port), flush=True)
@@ -35,6 +41,7 @@ def _serve(args: argparse.Namespace) -> int:
         port=args.port,
         workers=args.workers,
         log_level=args.log_level,
+        log_config=logs.config(args.log_level),
         access_log=False,
         timeout_graceful_shutdown=args.graceful_seconds,
     )

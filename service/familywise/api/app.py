@@ -10,6 +10,7 @@ from importlib import resources
 
 from fastapi import FastAPI, Request
 from fastapi.exceptions import RequestValidationError
+from fastapi.middleware.cors import CORSMiddleware
 from fastapi.openapi.docs import get_swagger_ui_html
 from fastapi.responses import HTMLResponse
 from fastapi.staticfiles import StaticFiles
@@ -17,8 +18,7 @@ from starlette.exceptions import HTTPException as StarletteHTTPException
 
 from familywise import __version__
 from familywise.api.middleware import RequestContext
-from familywise.api.problems import CATALOGUE, ProblemError, pointer_from_location
-from familywise.api.schemas.common import ItemError
+from familywise.api.problems import CATALOGUE, ProblemError, validation_problem
 from familywise.api.settings import Settings
 from familywise.stats.errors import DataError
 
@@ -40,31 +40,6 @@ work.
 """
 
 
-def _validation_problem(exc: RequestValidationError) -> ProblemError:
-    errors = []
-    for err in exc.errors():
-        location = list(err.get("loc", ()))
-        if location and location[0] == "body":
-            location = location[1:]
-        cause = (err.get("ctx") or {}).get("error")
-        if isinstance(cause, ItemError):
-            location.append(cause.index)
-            message = str(cause)
-        else:
-            message = err.get("msg", "invalid value")
-        errors.append({
-            "pointer": pointer_from_location(location),
-            "rule": err.get("type", "invalid"),
-            "detail": message,
-        })
-    first = errors[0] if errors else {"pointer": "", "rule": "invalid", "detail": "invalid request"}
-    detail = f"{first['pointer'] or 'the body'}: {first['detail']}"
-    if len(errors) > 1:
-        detail += f" (and {len(errors) - 1} more)"
-    return ProblemError("invalid-input", detail, pointer=first["pointer"], rule=first["rule"],
-                        errors=errors)
-
-
 def _install_handlers(app: FastAPI) -> None:
     @app.exception_handler(ProblemError)
     async def on_problem(request: Request, exc: ProblemError):
@@ -72,7 +47,7 @@ def _install_handlers(app: FastAPI) -> None:
 
     @app.exception_handler(RequestValidationError)
     async def on_validation(request: Request, exc: RequestValidationError):
-        return _validation_problem(exc).response()
+        return validation_problem(exc.errors()).response()
 
     @app.exception_handler(DataError)
     async def on_data(request: Request, exc: DataError):
@@ -187,5 +162,12 @@ def create_app(settings: Settings | None = None) -> FastAPI:
     for router in ROUTERS:
         app.include_router(router)
     _install_openapi(app)
-    app.add_middleware(RequestContext, max_bytes=settings.max_body_bytes)
+    if settings.cors_origins:
+        app.add_middleware(CORSMiddleware, allow_origins=list(settings.cors_origins),
+                           allow_methods=["GET", "POST"], allow_headers=["authorization", "content-type",
+                                                                        "x-request-id"],
+                           expose_headers=["x-request-id"])
+    endpoints = frozenset(route.path for router in ROUTERS for route in router.routes)
+    app.add_middleware(RequestContext, max_bytes=settings.max_body_bytes, api_keys=settings.api_keys,
+                       endpoints=endpoints)
     return app

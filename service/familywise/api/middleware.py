@@ -1,11 +1,12 @@
-"""Pure ASGI middleware: request id, body size limit, access log.
+"""Pure ASGI middleware: request id, API keys, body size limit, metrics, access log.
 
 Written against the ASGI interface rather than Starlette's BaseHTTPMiddleware
-so that they add microseconds, not a task per request.
+so that it adds microseconds, not a task per request.
 """
 
 from __future__ import annotations
 
+import hmac
 import json
 import logging
 import re
@@ -13,6 +14,7 @@ import time
 import uuid
 from typing import Any
 
+from familywise.api import metrics
 from familywise.api.problems import ProblemError
 
 Scope = dict[str, Any]
@@ -23,16 +25,24 @@ _SAFE_ID = re.compile(r"^[A-Za-z0-9._:-]{1,128}$")
 
 access_log = logging.getLogger("familywise.access")
 
+#: Paths open without an API key (probes must work before any key exists).
+OPEN_PATHS = frozenset({"/healthz", "/readyz"})
+
 
 class RequestContext:
     """One pure ASGI layer for every request: accept or create a request id
-    and echo it; answer 413 when the declared or streamed body exceeds
-    ``max_bytes``; write one JSON access-log line (method, path, status,
-    duration; never the body)."""
+    and echo it; when API keys are configured, require ``Authorization:
+    Bearer <key>`` (compared in constant time) on every path but the probes;
+    answer 413 when the declared or streamed body exceeds ``max_bytes``;
+    count and time the request for /metrics; write one JSON access-log line
+    (method, path, status, duration; never the body, never a key)."""
 
-    def __init__(self, app: ASGIApp, max_bytes: int) -> None:
+    def __init__(self, app: ASGIApp, max_bytes: int, api_keys: frozenset[str] = frozenset(),
+                 endpoints: frozenset[str] = frozenset()) -> None:
         self.app = app
         self.max_bytes = max_bytes
+        self.keys = [k.encode() for k in sorted(api_keys)]
+        self.endpoints = endpoints
 
     async def __call__(self, scope: Scope, receive: Any, send: Any) -> None:
         if scope["type"] != "http":
@@ -40,6 +50,7 @@ class RequestContext:
             return
         request_id = None
         declared = 0
+        authorization = b""
         for name, value in scope["headers"]:
             if name == REQUEST_ID_HEADER:
                 text = value.decode("latin-1")
@@ -50,6 +61,8 @@ class RequestContext:
                     declared = int(value)
                 except ValueError:
                     declared = 0
+            elif name == b"authorization":
+                authorization = value
         if request_id is None:
             request_id = uuid.uuid4().hex
         scope.setdefault("state", {})["request_id"] = request_id
@@ -75,8 +88,11 @@ class RequestContext:
                     raise _TooLarge()
             return message
 
+        path = scope.get("path", "")
         try:
-            if declared > self.max_bytes:
+            if self.keys and path not in OPEN_PATHS and not self._authorised(authorization):
+                await _unauthorised(scope, send_with_id)
+            elif declared > self.max_bytes:
                 await self._refuse(scope, send_with_id, declared)
             else:
                 try:
@@ -84,6 +100,11 @@ class RequestContext:
                 except _TooLarge:
                     await self._refuse(scope, send_with_id, received)
         finally:
+            elapsed = time.perf_counter() - started
+            endpoint = path if path in self.endpoints else "other"
+            method = scope.get("method", "")
+            metrics.REQUESTS.labels(endpoint, method, str(status)).inc()
+            metrics.LATENCY.labels(endpoint, method).observe(elapsed)
             if access_log.isEnabledFor(logging.INFO):
                 access_log.info(json.dumps({
                     "event": "request",
@@ -91,8 +112,19 @@ class RequestContext:
                     "method": scope.get("method"),
                     "path": scope.get("path"),
                     "status": status,
-                    "duration_ms": round((time.perf_counter() - started) * 1e3, 3),
+                    "duration_ms": round(elapsed * 1e3, 3),
                 }))
+
+    def _authorised(self, authorization: bytes) -> bool:
+        scheme, _, token = authorization.partition(b" ")
+        if scheme.lower() != b"bearer" or not token:
+            return False
+        # Compare with every key, always, so that the time taken says nothing
+        # about which key (or how much of one) matched.
+        matched = False
+        for key in self.keys:
+            matched |= hmac.compare_digest(token.strip(), key)
+        return matched
 
     async def _refuse(self, scope: Scope, send: Any, size: int) -> None:
         problem = ProblemError(
@@ -106,6 +138,12 @@ class RequestContext:
 
 class _TooLarge(Exception):
     pass
+
+
+async def _unauthorised(scope: Scope, send: Any) -> None:
+    problem = ProblemError("unauthorized", "this service requires 'Authorization: Bearer <key>' with a "
+                           "configured API key", rule="api-key", headers={"WWW-Authenticate": "Bearer"})
+    await problem.response()(scope, _drain, send)
 
 
 async def _drain() -> dict[str, Any]:

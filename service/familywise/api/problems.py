@@ -95,3 +95,28 @@ def pointer_from_location(location: tuple[Any, ...] | list[Any]) -> str:
     """JSON pointer (RFC 6901) from a pydantic error location."""
     parts = [str(p).replace("~", "~0").replace("/", "~1") for p in location]
     return "/" + "/".join(parts) if parts else ""
+
+
+def validation_problem(errors: list[dict[str, Any]], prefix: str = "") -> ProblemError:
+    """The 422 problem for pydantic validation errors, one entry per field,
+    pointers relative to the request body (``prefix`` for a nested request)."""
+    from familywise.api.schemas.common import ItemError
+
+    entries = []
+    for err in errors:
+        location = list(err.get("loc", ()))
+        if location and location[0] == "body":
+            location = location[1:]
+        cause = (err.get("ctx") or {}).get("error")
+        if isinstance(cause, ItemError):
+            location.append(cause.index)
+            message = str(cause)
+        else:
+            message = err.get("msg", "invalid value")
+        entries.append({"pointer": prefix + pointer_from_location(location), "rule": err.get("type", "invalid"),
+                        "detail": message})
+    first = entries[0] if entries else {"pointer": prefix, "rule": "invalid", "detail": "invalid request"}
+    detail = f"{first['pointer'] or 'the body'}: {first['detail']}"
+    if len(entries) > 1:
+        detail += f" (and {len(entries) - 1} more)"
+    return ProblemError("invalid-input", detail, pointer=first["pointer"], rule=first["rule"], errors=entries)

@@ -8,6 +8,8 @@ model validation or computation.
 
 from __future__ import annotations
 
+import asyncio
+import time
 import typing
 from collections.abc import Callable, Coroutine
 from typing import Any
@@ -18,6 +20,7 @@ from fastapi.exceptions import RequestValidationError
 from fastapi.routing import APIRoute
 from pydantic import BaseModel, ValidationError
 
+from familywise.api import metrics
 from familywise.api.parsing import CSV_FORMAT_PARAMETERS, parse_csv, parse_json, query_value
 from familywise.api.problems import ProblemError
 from familywise.api.settings import Settings
@@ -54,6 +57,13 @@ def check_limits(obj: Any, settings: Settings, pointer: str = "") -> None:
                 "(FAMILYWISE_MAX_VALUES)",
                 pointer=f"{pointer}/groups", rule="max_values",
             )
+    sizes = obj.get("sizes")
+    if isinstance(sizes, dict) and len(sizes) > settings.max_groups:
+        raise ProblemError(
+            "limit-exceeded",
+            f"{len(sizes)} groups exceed the limit of {settings.max_groups} (FAMILYWISE_MAX_GROUPS)",
+            pointer=f"{pointer}/sizes", rule="max_groups",
+        )
     contrasts = obj.get("contrasts")
     if isinstance(contrasts, list) and len(contrasts) > settings.max_contrasts:
         raise ProblemError(
@@ -103,11 +113,22 @@ class FamilywiseRoute(APIRoute):
         super().__init__(*args, **kwargs)
 
     def get_route_handler(self) -> Callable[[Request], Coroutine[Any, Any, Response]]:
-        model = _request_model(self.endpoint)
+        model, wants_settings = _request_model(self.endpoint)
         if model is None:
             return super().get_route_handler()
-        endpoint = self.endpoint
         accepts_csv = self.accepts_csv
+        if wants_settings:
+            bare = self.endpoint
+
+            def endpoint(validated: BaseModel, settings: Settings) -> Coroutine[Any, Any, Response]:
+                return bare(validated, settings=settings)
+        else:
+            plain_endpoint = self.endpoint
+
+            def endpoint(validated: BaseModel, settings: Settings) -> Coroutine[Any, Any, Response]:
+                return plain_endpoint(validated)
+
+        operation = self.path
 
         async def handler(request: Request) -> Response:
             obj = await decode_body(request, accepts_csv)
@@ -117,21 +138,73 @@ class FamilywiseRoute(APIRoute):
                 raise RequestValidationError(
                     [{**e, "loc": ("body", *e["loc"])} for e in exc.errors(include_url=False)]
                 ) from None
-            return await endpoint(validated)
+            started = time.perf_counter()
+            settings: Settings = request.app.state.settings
+            if is_large(obj, settings):
+                response = await _bounded(endpoint(validated, settings), settings.compute_timeout_seconds)
+            else:
+                response = await endpoint(validated, settings)
+            metrics.COMPUTATION.labels(operation).observe(time.perf_counter() - started)
+            return response
 
         return handler
 
 
-def _request_model(endpoint: Callable[..., Any]) -> type[BaseModel] | None:
-    """The pydantic model of an endpoint's single parameter, if it has one."""
+#: Requests up to these sizes are computed inline (their cost is bounded well
+#: below the time limit); larger ones run in a worker thread under the limit.
+INLINE_GROUPS = 40
+INLINE_VALUES = 20_000
+INLINE_CONTRASTS = 40
+
+
+def is_large(obj: Any, settings: Settings) -> bool:
+    """Whether a request may take long enough to need the time limit."""
+    if not isinstance(obj, dict):
+        return False
+    groups = obj.get("groups")
+    if isinstance(groups, list) and (len(groups) > INLINE_GROUPS or _count_values(groups) > INLINE_VALUES):
+        return True
+    contrasts = obj.get("contrasts")
+    if isinstance(contrasts, list) and len(contrasts) > INLINE_CONTRASTS:
+        return True
+    standard = obj.get("standard")
+    if isinstance(standard, dict) and isinstance(obj.get("sizes"), dict) and len(obj["sizes"]) > INLINE_GROUPS:
+        return True
+    return isinstance(obj.get("items"), list)
+
+
+async def _bounded(work: Coroutine[Any, Any, Response], limit: float) -> Response:
+    """Run the endpoint's coroutine in a worker thread; answer 503 when it
+    exceeds the limit.
+
+    The thread cannot be stopped from outside and finishes its work, but the
+    worker process keeps answering other requests meanwhile.
+    """
+    try:
+        return await asyncio.wait_for(asyncio.to_thread(asyncio.run, work), limit)
+    except TimeoutError:
+        raise ProblemError(
+            "computation-timeout",
+            f"the computation took longer than {limit:g} s (FAMILYWISE_COMPUTE_TIMEOUT_SECONDS); "
+            "split the request or raise the limit",
+            rule="compute_timeout_seconds", headers={"Retry-After": "30"},
+        ) from None
+
+
+def _request_model(endpoint: Callable[..., Any]) -> tuple[type[BaseModel] | None, bool]:
+    """The pydantic model of an endpoint's request parameter, if it has one,
+    and whether it also takes the service's ``settings``."""
     hints = typing.get_type_hints(endpoint, include_extras=True)
     hints.pop("return", None)
+    wants_settings = hints.pop("settings", None) is not None
     if len(hints) != 1:
-        return None
+        return None, False
     annotation = next(iter(hints.values()))
     if typing.get_origin(annotation) is typing.Annotated:
         annotation = typing.get_args(annotation)[0]
-    return annotation if isinstance(annotation, type) and issubclass(annotation, BaseModel) else None
+    if isinstance(annotation, type) and issubclass(annotation, BaseModel):
+        return annotation, wants_settings
+    return None, False
 
 
 async def decode_body(request: Request, accepts_csv: bool) -> Any:

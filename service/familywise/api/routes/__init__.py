@@ -1,5 +1,13 @@
 """Routers of the service, in the order they appear in the schema."""
 
-from familywise.api.routes import contrasts, families, figures, guidance, health, omnibus
+from familywise.api.routes import batch, contrasts, families, figures, guidance, health, omnibus
 
-ROUTERS = [health.router, omnibus.router, contrasts.router, families.router, guidance.router, figures.router]
+ROUTERS = [
+    health.router,
+    omnibus.router,
+    contrasts.router,
+    families.router,
+    guidance.router,
+    batch.router,
+    figures.router,
+]
