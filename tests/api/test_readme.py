@@ -1,0 +1,20 @@
+"""The README is true: its API tour is what the code returns, and it keeps the
+two set-up commands and the cautions."""
+
+from __future__ import annotations
+
+from docs import tour
+
+
+def test_api_tour_matches_the_code(client) -> None:
+    readme = tour.README.read_text(encoding="utf-8")
+    assert readme == tour.rewritten(readme, tour.render(client)), (
+        "README.md's API tour is out of date: run `python -m docs.tour`")
+
+
+def test_set_up_commands_and_cautions() -> None:
+    readme = tour.README.read_text(encoding="utf-8")
+    setup = readme.split("## Set up and run", 1)[1].split("##", 1)[0]
+    commands = [line.split("#")[0].strip() for line in setup.splitlines() if line.startswith("    make")]
+    assert commands == ["make run", "make test"]
+    assert "does not replace, a qualified statistician" in readme
