@@ -37,50 +37,34 @@ def _count_values(groups: list) -> int:
     return sum(len(g["values"]) for g in groups if isinstance(g, dict) and isinstance(g.get("values"), list))
 
 
+def _limit(count: int, limit: int, what: str, variable: str, pointer: str, rule: str) -> None:
+    if count > limit:
+        raise ProblemError("limit-exceeded", f"{count} {what} exceed the limit of {limit} ({variable})",
+                           pointer=pointer, rule=rule)
+
+
 def check_limits(obj: Any, settings: Settings, pointer: str = "") -> None:
     """Refuse requests larger than the configured limits, naming the limit."""
     if not isinstance(obj, dict):
         return
     groups = obj.get("groups")
     if isinstance(groups, list):
-        if len(groups) > settings.max_groups:
-            raise ProblemError(
-                "limit-exceeded",
-                f"{len(groups)} groups exceed the limit of {settings.max_groups} (FAMILYWISE_MAX_GROUPS)",
-                pointer=f"{pointer}/groups", rule="max_groups",
-            )
-        count = _count_values(groups)
-        if count > settings.max_values:
-            raise ProblemError(
-                "limit-exceeded",
-                f"{count} values exceed the limit of {settings.max_values} per analysis "
-                "(FAMILYWISE_MAX_VALUES)",
-                pointer=f"{pointer}/groups", rule="max_values",
-            )
+        _limit(len(groups), settings.max_groups, "groups", "FAMILYWISE_MAX_GROUPS", f"{pointer}/groups",
+               "max_groups")
+        _limit(_count_values(groups), settings.max_values, "values", "FAMILYWISE_MAX_VALUES",
+               f"{pointer}/groups", "max_values")
     sizes = obj.get("sizes")
-    if isinstance(sizes, dict) and len(sizes) > settings.max_groups:
-        raise ProblemError(
-            "limit-exceeded",
-            f"{len(sizes)} groups exceed the limit of {settings.max_groups} (FAMILYWISE_MAX_GROUPS)",
-            pointer=f"{pointer}/sizes", rule="max_groups",
-        )
+    if isinstance(sizes, dict):
+        _limit(len(sizes), settings.max_groups, "groups", "FAMILYWISE_MAX_GROUPS", f"{pointer}/sizes",
+               "max_groups")
     contrasts = obj.get("contrasts")
-    if isinstance(contrasts, list) and len(contrasts) > settings.max_contrasts:
-        raise ProblemError(
-            "limit-exceeded",
-            f"{len(contrasts)} contrasts exceed the limit of {settings.max_contrasts} "
-            "(FAMILYWISE_MAX_CONTRASTS)",
-            pointer=f"{pointer}/contrasts", rule="max_contrasts",
-        )
+    if isinstance(contrasts, list):
+        _limit(len(contrasts), settings.max_contrasts, "contrasts", "FAMILYWISE_MAX_CONTRASTS",
+               f"{pointer}/contrasts", "max_contrasts")
     items = obj.get("items")
     if isinstance(items, list):
-        if len(items) > settings.max_batch_items:
-            raise ProblemError(
-                "limit-exceeded",
-                f"{len(items)} items exceed the limit of {settings.max_batch_items} "
-                "(FAMILYWISE_MAX_BATCH_ITEMS)",
-                pointer=f"{pointer}/items", rule="max_batch_items",
-            )
+        _limit(len(items), settings.max_batch_items, "items", "FAMILYWISE_MAX_BATCH_ITEMS", f"{pointer}/items",
+               "max_batch_items")
         total = 0
         for i, item in enumerate(items):
             if isinstance(item, dict) and isinstance(item.get("request"), dict):
@@ -88,12 +72,8 @@ def check_limits(obj: Any, settings: Settings, pointer: str = "") -> None:
                 check_limits(request, settings, f"{pointer}/items/{i}/request")
                 if isinstance(request.get("groups"), list):
                     total += _count_values(request["groups"])
-        if total > settings.max_values * 10:
-            raise ProblemError(
-                "limit-exceeded",
-                f"{total} values in one batch exceed ten times the per-analysis limit",
-                pointer=f"{pointer}/items", rule="max_batch_values",
-            )
+        _limit(total, settings.max_values * 10, "values in one batch", "ten times FAMILYWISE_MAX_VALUES",
+               f"{pointer}/items", "max_batch_values")
 
 
 class FamilywiseRoute(APIRoute):

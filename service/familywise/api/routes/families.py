@@ -1,8 +1,13 @@
-"""POST /v1/followup/{pairwise, control, best, contrasts}."""
+"""POST /v1/followup/{pairwise, control, best, contrasts, equivalence}.
+
+The five endpoints differ only in their request model, their computation and
+their documentation, so they are declared from one table.
+"""
 
 from __future__ import annotations
 
-from typing import Annotated
+from collections.abc import Callable
+from typing import Annotated, Any
 
 from fastapi import APIRouter, Body, Response
 
@@ -20,97 +25,73 @@ from familywise.api.schemas.problem import STANDARD_REFUSALS
 
 router = APIRouter(route_class=FamilywiseRoute, tags=["follow-up families"])
 
-
-def _example(summary: str, value: dict) -> dict:
-    return {"plate": {"summary": summary, "value": value}}
-
-
-def _respond(run, request) -> Response:
-    return json_response(operations.with_provenance(run(request), request))
-
-
-@router.post(
-    "/v1/followup/pairwise",
-    response_model=FamilyResponse,
-    summary="All pairwise comparisons, with the compact letter display",
-    responses=STANDARD_REFUSALS,
-    openapi_extra=ACCEPTS_CSV,
-)
-async def pairwise_endpoint(
-    request: Annotated[PairwiseRequest, Body(openapi_examples=_example(
-        "Tukey-Kramer on the buffer plate", examples.with_fields(examples.BUFFER_PLATE,
-                                                                 method="tukey_kramer")))],
-) -> Response:
-    """Every pair of groups, by the chosen method; `letters` gives the compact letter
-    display (groups sharing a letter are not significantly different)."""
-    return _respond(operations.run_pairwise, request)
-
-
-@router.post(
-    "/v1/followup/control",
-    response_model=FamilyResponse,
-    summary="Each group against a control (Dunnett)",
-    responses=STANDARD_REFUSALS,
-    openapi_extra=ACCEPTS_CSV,
-)
-async def control_endpoint(
-    request: Annotated[ControlRequest, Body(openapi_examples=_example(
-        "Each buffer against the reference buffer", examples.with_fields(
-            examples.UNBALANCED_PLATE, control="reference buffer", method="dunnett")))],
-) -> Response:
-    """Each group against `control`: `first` is the treatment, `second` the control.
-    Exact for unequal group sizes; one-sided alternatives give one-sided intervals."""
-    return _respond(operations.run_control, request)
-
-
-@router.post(
-    "/v1/followup/best",
-    response_model=FamilyResponse,
-    summary="Each group against the best of the others (Hsu's MCB)",
-    responses=STANDARD_REFUSALS,
-    openapi_extra=ACCEPTS_CSV,
-)
-async def best_endpoint(
-    request: Annotated[BestRequest, Body(openapi_examples=_example(
-        "Which buffer may give the highest activity", examples.with_fields(
-            examples.UNBALANCED_PLATE, best="highest")))],
-) -> Response:
-    """Constrained simultaneous intervals for each mean minus the best of the others,
-    `may_be_best` per group and `best_set`, exact for unequal group sizes."""
-    return _respond(operations.run_best, request)
-
-
-@router.post(
-    "/v1/followup/contrasts",
-    response_model=FamilyResponse,
-    summary="Planned or post-hoc contrasts",
-    responses=STANDARD_REFUSALS,
-)
-async def contrasts_endpoint(
-    request: Annotated[ContrastsRequest, Body(openapi_examples=_example(
-        "Reference against the rest, and HEPES against phosphate", examples.with_fields(
-            examples.BUFFER_PLATE, adjustment="multivariate_t", contrasts=examples.PLANNED_CONTRASTS)))],
-) -> Response:
-    """Estimate, SE, t, p, interval, sum of squares and F of each contrast
-    (coefficients keyed by group label, summing to zero), with the chosen adjustment."""
-    return _respond(operations.run_contrasts, request)
-
-
-@router.post(
-    "/v1/followup/equivalence",
-    response_model=FamilyResponse,
-    summary="Each candidate against a reference within a margin (equivalence, non-inferiority)",
-    responses=STANDARD_REFUSALS,
-    openapi_extra=ACCEPTS_CSV,
-)
-async def equivalence_endpoint(
-    request: Annotated[EquivalenceRequest, Body(openapi_examples=_example(
-        "Are the new buffers within 2 U/mg of the reference?", examples.with_fields(
+ENDPOINTS: list[dict[str, Any]] = [
+    {
+        "name": "pairwise", "model": PairwiseRequest, "run": operations.run_pairwise, "csv": True,
+        "summary": "All pairwise comparisons, with the compact letter display",
+        "description": "Every pair of groups, by the chosen method; `letters` gives the compact letter "
+                       "display (groups sharing a letter are not significantly different).",
+        "example": ("Tukey-Kramer on the buffer plate",
+                    examples.with_fields(examples.BUFFER_PLATE, method="tukey_kramer")),
+    },
+    {
+        "name": "control", "model": ControlRequest, "run": operations.run_control, "csv": True,
+        "summary": "Each group against a control (Dunnett)",
+        "description": "Each group against `control`: `first` is the treatment, `second` the control. Exact "
+                       "for unequal group sizes; one-sided alternatives give one-sided intervals.",
+        "example": ("Each buffer against the reference buffer", examples.with_fields(
+            examples.UNBALANCED_PLATE, control="reference buffer", method="dunnett")),
+    },
+    {
+        "name": "best", "model": BestRequest, "run": operations.run_best, "csv": True,
+        "summary": "Each group against the best of the others (Hsu's MCB)",
+        "description": "Constrained simultaneous intervals for each mean minus the best of the others, "
+                       "`may_be_best` per group and `best_set`, exact for unequal group sizes.",
+        "example": ("Which buffer may give the highest activity",
+                    examples.with_fields(examples.UNBALANCED_PLATE, best="highest")),
+    },
+    {
+        "name": "contrasts", "model": ContrastsRequest, "run": operations.run_contrasts, "csv": False,
+        "summary": "Planned or post-hoc contrasts",
+        "description": "Estimate, SE, t, p, interval, sum of squares and F of each contrast (coefficients "
+                       "keyed by group label, summing to zero), with the chosen adjustment.",
+        "example": ("Reference against the rest, and HEPES against phosphate", examples.with_fields(
+            examples.BUFFER_PLATE, adjustment="multivariate_t", contrasts=examples.PLANNED_CONTRASTS)),
+    },
+    {
+        "name": "equivalence", "model": EquivalenceRequest, "run": operations.run_equivalence, "csv": True,
+        "summary": "Each candidate against a reference within a margin (equivalence, non-inferiority)",
+        "description": "Two one-sided tests per candidate against `reference` within `margin` (absolute, or "
+                       "relative to the reference mean); `equivalent`, `non_inferior` or `non_superior` per "
+                       "candidate, both one-sided p-values, and the interval at the level the method implies.",
+        "example": ("Are the new buffers within 2 U/mg of the reference?", examples.with_fields(
             examples.BUFFER_PLATE, reference="reference buffer", margin=2.0, kind="equivalence",
-            method="dunnett_tost")))],
-) -> Response:
-    """Two one-sided tests per candidate against `reference` within `margin`
-    (absolute, or relative to the reference mean); `equivalent`, `non_inferior` or
-    `non_superior` per candidate, both one-sided p-values, and the interval at the
-    level the method implies."""
-    return _respond(operations.run_equivalence, request)
+            method="dunnett_tost")),
+    },
+]
+
+
+def _endpoint(model: type, run: Callable[[Any], dict[str, Any]], example: tuple[str, dict]) -> Callable:
+    async def endpoint(request) -> Response:
+        return json_response(operations.with_provenance(run(request), request))
+
+    summary, value = example
+    endpoint.__annotations__ = {
+        "request": Annotated[model, Body(openapi_examples={"plate": {"summary": summary, "value": value}})],
+        "return": Response,
+    }
+    return endpoint
+
+
+for spec in ENDPOINTS:
+    router.add_api_route(
+        f"/v1/followup/{spec['name']}",
+        _endpoint(spec["model"], spec["run"], spec["example"]),
+        methods=["POST"],
+        name=f"{spec['name']}_endpoint",
+        response_model=FamilyResponse,
+        summary=spec["summary"],
+        description=spec["description"],
+        responses=STANDARD_REFUSALS,
+        openapi_extra=ACCEPTS_CSV if spec["csv"] else None,
+    )

@@ -8,11 +8,13 @@ plain JSON numbers.
 
 from __future__ import annotations
 
+import dataclasses
 import math
+import typing
 from decimal import Decimal
 from typing import Annotated, Any, Literal
 
-from pydantic import BaseModel, ConfigDict, Field, PlainValidator, WithJsonSchema
+from pydantic import BaseModel, ConfigDict, Field, PlainValidator, WithJsonSchema, create_model
 from pydantic_core import PydanticCustomError
 
 MAX_LABEL_LENGTH = 200
@@ -122,3 +124,18 @@ class Provenance(BaseModel):
     version: str
     input_sha256: str = Field(description="SHA-256 of the canonical form of the validated request.")
     libraries: dict[str, str]
+
+
+def response_model(name: str, source: type, descriptions: dict[str, str] | None = None,
+                   **extra: Any) -> type[BaseModel]:
+    """A response model with the fields of a result dataclass of the statistics
+    layer (same names and types), optional descriptions, and extra fields
+    (for example ``provenance=(Provenance, ...)``): one definition of each
+    result's shape, not two that can drift apart."""
+    descriptions = descriptions or {}
+    hints = typing.get_type_hints(source)
+    fields: dict[str, Any] = {
+        f.name: (hints[f.name], Field(description=descriptions.get(f.name)))
+        for f in dataclasses.fields(source)
+    }
+    return create_model(name, __base__=BaseModel, **fields, **extra)

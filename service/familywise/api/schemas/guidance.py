@@ -16,6 +16,7 @@ from familywise.api.schemas.common import (
     Number,
     Provenance,
     Strict,
+    response_model,
 )
 from familywise.api.schemas.families import (
     Alternative,
@@ -26,6 +27,8 @@ from familywise.api.schemas.families import (
     RelativeMargin,
 )
 from familywise.api.schemas.omnibus import OmnibusResponse
+from familywise.stats.planning import Plan
+from familywise.stats.recommend import Findings
 
 
 class Question(Strict):
@@ -66,16 +69,7 @@ class ChoiceOut(BaseModel):
     when: str | None = Field(None, description="When to prefer this alternative.")
 
 
-class FindingsOut(BaseModel):
-    variance_ratio: float | None
-    levene_p_value: float | None
-    shapiro_p_value: float | None
-    smallest_group: int
-    size_ratio: float
-    omnibus_p_value: float | None
-    unequal_variances: bool
-    non_normal_small: bool
-    very_unbalanced: bool
+FindingsOut = response_model("FindingsOut", Findings)
 
 
 class RecommendationResponse(BaseModel):
@@ -147,20 +141,7 @@ class PlanRequest(Strict):
     alternative: Alternative = Field("two_sided", description="Family control: one- or two-sided.")
 
 
-class PlanResponse(BaseModel):
-    target: str
-    method: str
-    k: int
-    alpha: float
-    power: float
-    n_per_group: int
-    total_n: int
-    achieved_power: float
-    cohens_f: float | None
-    difference: float | None
-    sd: float | None
-    unrounded_total_n: float | None = Field(description="Omnibus: the continuous solution before rounding.")
-    power_standard_error: float | None = Field(description="Simulation error of the power, when simulated.")
-    method_note: str
-    rounding: str
-    provenance: Provenance
+PlanResponse = response_model("PlanResponse", Plan, {
+    "unrounded_total_n": "Omnibus: the continuous solution before rounding.",
+    "power_standard_error": "Simulation error of the power, when simulated.",
+}, provenance=(Provenance, ...))

@@ -4,7 +4,8 @@ from __future__ import annotations
 
 from pydantic import BaseModel, Field
 
-from familywise.api.schemas.common import GroupsRequest, Provenance
+from familywise.api.schemas.common import GroupsRequest, Provenance, response_model
+from familywise.stats.omnibus import EffectSizes
 
 
 class OmnibusRequest(GroupsRequest):
@@ -51,13 +52,10 @@ class TestOut(BaseModel):
     unavailable: str | None = None
 
 
-class EffectSizesOut(BaseModel):
-    eta_squared: float
-    eta_squared_ci_low: float
-    eta_squared_ci_high: float
-    omega_squared: float
-    cohens_f: float
-    confidence_level: float
+EffectSizesOut = response_model("EffectSizesOut", EffectSizes, {
+    "eta_squared_ci_low": "Lower end of the interval for eta² (noncentral F; Steiger 2004).",
+    "confidence_level": "Level of the interval for eta² (1 - alpha).",
+})
 
 
 class DiagnosticsOut(BaseModel):

@@ -87,22 +87,17 @@ def _log_tails(c: ArrayLike, lambdas: ArrayLike, df: ArrayLike, alternative: str
     return upper.reshape(shape), lower.reshape(shape)
 
 
-def many_to_one_sf(
-    c: ArrayLike, lambdas: ArrayLike, df: ArrayLike, alternative: str = "two_sided"
-) -> np.ndarray:
-    """P(max_i |T_i| > c) (two-sided) or P(max_i T_i > c) (one-sided)."""
-    return np.exp(_log_tails(c, lambdas, df, alternative)[0])
-
-
-def many_to_one_logsf(
-    c: ArrayLike, lambdas: ArrayLike, df: ArrayLike, alternative: str = "two_sided"
-) -> np.ndarray:
+def many_to_one_logsf(c: ArrayLike, lambdas: ArrayLike, df: ArrayLike, alternative: str = "two_sided") -> np.ndarray:
+    """log P(max_i |T_i| > c) (two-sided) or log P(max_i T_i > c) (one-sided)."""
     return _log_tails(c, lambdas, df, alternative)[0]
 
 
-def many_to_one_cdf(
-    c: ArrayLike, lambdas: ArrayLike, df: ArrayLike, alternative: str = "two_sided"
-) -> np.ndarray:
+def many_to_one_sf(c: ArrayLike, lambdas: ArrayLike, df: ArrayLike, alternative: str = "two_sided") -> np.ndarray:
+    """P(max_i |T_i| > c) (two-sided) or P(max_i T_i > c) (one-sided)."""
+    return np.exp(many_to_one_logsf(c, lambdas, df, alternative))
+
+
+def many_to_one_cdf(c: ArrayLike, lambdas: ArrayLike, df: ArrayLike, alternative: str = "two_sided") -> np.ndarray:
     """P(max_i |T_i| <= c) (two-sided) or P(max_i T_i <= c) (one-sided)."""
     return np.exp(_log_tails(c, lambdas, df, alternative)[1])
 

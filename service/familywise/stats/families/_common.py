@@ -18,6 +18,7 @@ import math
 from dataclasses import dataclass, field
 
 import numpy as np
+from scipy import special
 
 from familywise.stats.data import OneWayData
 
@@ -162,3 +163,43 @@ def agreeing_critical_value(critical: float, evidence: np.ndarray, p_values: np.
 
 def count_phrase(n: int, singular: str, plural: str | None = None) -> str:
     return f"{n} {singular if n == 1 else (plural or singular + 's')}"
+
+
+@dataclass(frozen=True)
+class PooledTFamily:
+    """How a family of pooled t tests is adjusted: its p-values, the interval
+    multiplier (None for stepwise procedures), error rate and interval kind."""
+
+    p_values: np.ndarray
+    critical_value: float | None
+    error_rate: str
+    interval: str
+    notes: tuple[str, ...]
+
+
+POOLED_T_METHODS = ("none", "bonferroni", "sidak", "holm", "benjamini_hochberg")
+
+
+def pooled_t_family(raw: np.ndarray, df: float, alpha: float, method: str) -> PooledTFamily:
+    """Unadjusted, Bonferroni (Dunn 1961), Šidák (1967), Holm (1979) or
+    Benjamini-Hochberg (1995) on two-sided pooled t p-values ``raw``; the
+    single-step methods with their t multipliers."""
+    m = raw.size
+    if method == "none":
+        return PooledTFamily(raw.copy(), float(-special.stdtrit(df, alpha / 2.0)), "per_comparison",
+                             "per_comparison", ())
+    if method == "bonferroni":
+        return PooledTFamily(bonferroni(raw), float(-special.stdtrit(df, alpha / (2.0 * m))),
+                             "familywise", "simultaneous", ())
+    if method == "sidak":
+        level = -math.expm1(math.log1p(-alpha) / m)
+        return PooledTFamily(sidak(raw), float(-special.stdtrit(df, level / 2.0)), "familywise",
+                             "simultaneous", ())
+    stepwise = ("A stepwise procedure gives decisions, not simultaneous intervals.",)
+    if method == "holm":
+        return PooledTFamily(holm(raw), None, "familywise", "none", stepwise)
+    if method == "benjamini_hochberg":
+        return PooledTFamily(benjamini_hochberg(raw), None, "false_discovery", "none", (
+            "The false-discovery rate is controlled: among the differences declared, the expected share "
+            "of false ones is at most alpha.", *stepwise))
+    raise ValueError(f"not a pooled-t adjustment: {method!r}")

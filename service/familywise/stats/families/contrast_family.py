@@ -44,11 +44,12 @@ from familywise.stats.distributions import many_to_one_curve
 from familywise.stats.distributions.multivariate_t import MaxAbsT, product_lambdas
 from familywise.stats.errors import DataError
 from familywise.stats.families._common import (
-    ADJUSTMENTS,
+    POOLED_T_METHODS,
     Comparison,
     FamilyResult,
     agreeing_critical_value,
     pooled,
+    pooled_t_family,
 )
 
 ADJUSTMENT_NAMES = ("none", "bonferroni", "sidak", "holm", "benjamini_hochberg", "multivariate_t", "scheffe")
@@ -81,30 +82,15 @@ def contrast_family(
     error_rate = "familywise"
     probability_error = None
     critical: float | None
-    if adjustment == "none":
-        p = raw
-        critical = float(stats.t.isf(alpha / 2.0, df))
-        error_rate = "per_comparison"
-        interval = "per_comparison"
-        if m > 1:
+    if adjustment in POOLED_T_METHODS:
+        family = pooled_t_family(raw, df, alpha, adjustment)
+        p, critical = family.p_values, family.critical_value
+        error_rate, interval = family.error_rate, family.interval
+        notes.extend(family.notes)
+        if adjustment == "none" and m > 1:
             notes.append("Unadjusted: each contrast is tested at alpha. This is justified for a few "
                          "planned contrasts that are orthogonal under the actual group sizes "
                          "(check with /v1/contrasts/validate); otherwise choose an adjustment.")
-    elif adjustment == "bonferroni":
-        p = ADJUSTMENTS["bonferroni"](raw)
-        critical = float(stats.t.isf(alpha / (2.0 * m), df))
-    elif adjustment == "sidak":
-        p = ADJUSTMENTS["sidak"](raw)
-        critical = float(stats.t.isf(-math.expm1(math.log1p(-alpha) / m) / 2.0, df))
-    elif adjustment in ("holm", "benjamini_hochberg"):
-        p = ADJUSTMENTS[adjustment](raw)
-        critical = None
-        interval = "none"
-        if adjustment == "benjamini_hochberg":
-            error_rate = "false_discovery"
-            notes.append("False-discovery rate: among the contrasts declared non-zero, the expected share "
-                         "of false ones is at most alpha.")
-        notes.append("A stepwise procedure gives decisions, not simultaneous intervals.")
     elif adjustment == "scheffe":
         q = data.k - 1
         p = stats.f.sf(t * t / q, q, df)

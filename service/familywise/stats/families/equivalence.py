@@ -100,13 +100,13 @@ def equivalence_family(
     if method == "tost":
         p_lower = special.stdtr(df, -t_lower)
         p_upper = special.stdtr(df, t_upper)
-        critical = float(special.stdtrit(df, 1.0 - alpha))
+        critical = float(-special.stdtrit(df, alpha))
         error_rate = "per_comparison"
         interval = "per_comparison"
     elif method == "bonferroni_tost":
         p_lower = np.minimum(1.0, m * special.stdtr(df, -t_lower))
         p_upper = np.minimum(1.0, m * special.stdtr(df, t_upper))
-        critical = float(special.stdtrit(df, 1.0 - alpha / m))
+        critical = float(-special.stdtrit(df, alpha / m))
         error_rate = "familywise"
         interval = "simultaneous"
     else:

@@ -64,6 +64,7 @@ from familywise.stats.families._common import (
     agreeing_critical_value,
     mean_differences,
     pooled,
+    pooled_t_family,
 )
 from familywise.stats.letters import compact_letter_display
 
@@ -111,31 +112,17 @@ def pairwise(
         if not np.all(data.sizes == data.sizes[0]):
             notes.append("Group sizes differ: the Tukey-Kramer intervals are conservative "
                          "(their joint coverage is at least, not exactly, 1 - alpha).")
-    elif method == "lsd":
-        p = raw
-        critical = float(stats.t.isf(alpha / 2.0, df))
-        interval = "per_comparison"
-        error_rate = "per_comparison"
-        notes.append(
-            f"Unadjusted t tests: each comparison has error rate alpha, but the chance of at least "
-            f"one false difference among the {m} pairs is up to {min(1.0, m * alpha):.3g} "
-            f"(Bonferroni bound; {1 - (1 - alpha) ** m:.3g} were the tests independent)."
-        )
-    elif method == "bonferroni":
-        p = ADJUSTMENTS["bonferroni"](raw)
-        critical = float(stats.t.isf(alpha / (2.0 * m), df))
-    elif method == "sidak":
-        p = ADJUSTMENTS["sidak"](raw)
-        critical = float(stats.t.isf(-math.expm1(math.log1p(-alpha) / m) / 2.0, df))
-    else:  # holm, benjamini_hochberg
-        p = ADJUSTMENTS[method](raw)
-        critical = None
-        interval = "none"
-        if method == "benjamini_hochberg":
-            error_rate = "false_discovery"
-            notes.append("The false-discovery rate is controlled: among the differences declared, "
-                         "the expected share of false ones is at most alpha.")
-        notes.append("A stepwise procedure gives decisions, not simultaneous intervals.")
+    else:
+        family = pooled_t_family(raw, df, alpha, "none" if method == "lsd" else method)
+        p, critical = family.p_values, family.critical_value
+        error_rate, interval = family.error_rate, family.interval
+        notes.extend(family.notes)
+        if method == "lsd":
+            notes.append(
+                f"Unadjusted t tests: each comparison has error rate alpha, but the chance of at least "
+                f"one false difference among the {m} pairs is up to {min(1.0, m * alpha):.3g} "
+                f"(Bonferroni bound; {1 - (1 - alpha) ** m:.3g} were the tests independent)."
+            )
     significant = p < alpha
     if method == "lsd" and protected:
         if omnibus_p_value is None:
