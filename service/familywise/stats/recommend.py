@@ -83,6 +83,7 @@ class Findings:
     unequal_variances: bool
     non_normal_small: bool
     very_unbalanced: bool
+    own_variances: bool  # every group has n >= 2 and a positive variance (Games-Howell can run)
 
 
 @dataclass(frozen=True)
@@ -119,6 +120,7 @@ def findings(data: OneWayData, alpha: float) -> Findings:
         unequal_variances=bool(unequal),
         non_normal_small=bool(shapiro_p is not None and shapiro_p < alpha and smallest < SMALL_GROUP),
         very_unbalanced=size_ratio > MARKED_IMBALANCE,
+        own_variances=bool(np.all(data.sizes >= 2) and np.all(data.variances > 0)),
     )
 
 
@@ -330,8 +332,9 @@ def _control(q: Question, labels, n, found):
     if found is not None and found.unequal_variances:
         cautions.append("Dunnett's procedure pools the variances; with markedly unequal variances compare "
                         "with Games-Howell, whose pairwise results include each group against the control.")
-        alternatives = [*alternatives, Choice("pairwise", "games_howell", {},
-                                              "with markedly unequal variances")]
+        if found.own_variances:
+            alternatives = [*alternatives, Choice("pairwise", "games_howell", {},
+                                                  "with markedly unequal variances")]
     return choice, reasons, cautions, alternatives
 
 
@@ -383,7 +386,12 @@ def _pairs(q: Question, labels, found, alpha):
                                                   "when every declared difference must be protected")]
     alternatives = [Choice("pairwise", "holm", {}, "when decisions suffice (no intervals)"),
                     Choice("pairwise", "bonferroni", {}, "simple and conservative")]
-    if found is not None and found.unequal_variances:
+    if found is not None and found.unequal_variances and not found.own_variances:
+        cautions.append("The variances look unequal, but a group has a single value or no spread at all, so "
+                        "Games-Howell (which needs every group's own variance) cannot be used: the pooled "
+                        "comparisons below assume a common variance; check the data (for example values "
+                        "at a detection limit).")
+    elif found is not None and found.unequal_variances:
         choice = Choice("pairwise", "games_howell")
         reasons = ["All pairs, familywise, with markedly unequal variances: Games-Howell (Welch standard "
                    "errors and degrees of freedom per pair)."]
