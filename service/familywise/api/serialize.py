@@ -57,9 +57,9 @@ ROW_FIELDS = frozenset({"first", "second", "difference", "se", "statistic", "df"
 def family_json(result: FamilyResult) -> dict[str, Any]:
     """A FamilyResult as JSON-ready values (faster than ``plain`` for the
     many rows of a family, and leaving out row fields the family does not use)."""
-    used = [n for n in _ROW_NAMES
-            if n in ROW_FIELDS or any(getattr(r, n) is not None for r in result.comparisons)]
-    rows = [{n: getattr(row, n) for n in used} for row in result.comparisons]
+    records = [row.__dict__ for row in result.comparisons]
+    used = [n for n in _ROW_NAMES if n in ROW_FIELDS or any(r[n] is not None for r in records)]
+    rows = [{n: r[n] for n in used} for r in records]
     for row in rows:
         for key, value in row.items():
             if type(value) is float and not math.isfinite(value):

@@ -37,9 +37,9 @@ from familywise.stats.data import OneWayData
 from familywise.stats.distributions import many_to_one_curve
 from familywise.stats.errors import DataError
 from familywise.stats.families._common import (
-    Comparison,
     FamilyResult,
     agreeing_critical_value,
+    comparison_rows,
     mean_differences,
     pooled,
 )
@@ -98,16 +98,14 @@ def versus_control(
         notes.append(f"One-sided: the alternative is that a treatment mean is "
                      f"{'above' if alternative == 'greater' else 'below'} the control's; intervals are "
                      "bounded on one side only (the other end is null).")
-    rows = tuple(
-        Comparison(
-            first=data.labels[g], second=control, difference=float(diff[r]), se=float(se[r]),
-            statistic=float(t[r]), df=df, p_value=float(p[r]),
-            ci_low=None if low[r] is None else float(low[r]),
-            ci_high=None if high[r] is None else float(high[r]),
-            significant=bool(p[r] < alpha),
-            critical_value=None if step_critical[r] is None else float(step_critical[r]),
-        )
-        for r, g in enumerate(treated)
+    m = treated.size
+    rows = comparison_rows(
+        first=[data.labels[g] for g in treated.tolist()], second=[control] * m, difference=diff.tolist(),
+        se=se.tolist(), statistic=t.tolist(), df=[df] * m, p_value=np.asarray(p).tolist(),
+        ci_low=np.asarray(low, dtype=object).tolist() if isinstance(low, list) else low.tolist(),
+        ci_high=np.asarray(high, dtype=object).tolist() if isinstance(high, list) else high.tolist(),
+        significant=(np.asarray(p) < alpha).tolist(),
+        critical_value=[None if c is None else float(c) for c in step_critical],
     )
     found = [row.first for row in rows if row.significant]
     plural, singular = {"two_sided": ("differ from", "differs from"), "greater": ("exceed", "exceeds"),

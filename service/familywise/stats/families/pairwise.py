@@ -46,6 +46,7 @@ Fisher, R. A. (1935). The Design of Experiments.
 from __future__ import annotations
 
 import math
+from functools import lru_cache
 
 import numpy as np
 from scipy import special, stats
@@ -62,6 +63,7 @@ from familywise.stats.families._common import (
     Comparison,
     FamilyResult,
     agreeing_critical_value,
+    comparison_rows,
     mean_differences,
     pooled,
     pooled_t_family,
@@ -74,8 +76,12 @@ DUNN_ADJUSTMENTS = ("holm", "bonferroni", "sidak", "benjamini_hochberg", "none")
 SQRT2 = math.sqrt(2.0)
 
 
+@lru_cache(maxsize=256)
 def pairs(k: int) -> tuple[np.ndarray, np.ndarray]:
+    """Index arrays of the pairs (i < j) in row order (cached; read-only)."""
     first, second = np.triu_indices(k, 1)
+    first.setflags(write=False)
+    second.setflags(write=False)
     return first, second
 
 
@@ -136,18 +142,14 @@ def pairwise(
     if critical is not None:
         if method != "lsd" or not protected:
             critical = agreeing_critical_value(critical, np.abs(t), p, alpha)
-        low, high = diff - critical * se, diff + critical * se
+        low, high = (diff - critical * se).tolist(), (diff + critical * se).tolist()
     else:
         low = high = [None] * m
-    rows = tuple(
-        Comparison(
-            first=data.labels[i], second=data.labels[j], difference=float(diff[r]), se=float(se[r]),
-            statistic=float(t[r]), df=df, p_value=float(p[r]),
-            ci_low=None if low[r] is None else float(low[r]),
-            ci_high=None if high[r] is None else float(high[r]),
-            significant=bool(significant[r]), unadjusted_p_value=float(raw[r]),
-        )
-        for r, (i, j) in enumerate(zip(first, second, strict=True))
+    labels = data.labels
+    rows = comparison_rows(
+        first=[labels[i] for i in first.tolist()], second=[labels[j] for j in second.tolist()],
+        difference=diff.tolist(), se=se.tolist(), statistic=t.tolist(), df=[df] * m, p_value=p.tolist(),
+        ci_low=low, ci_high=high, significant=significant.tolist(), unadjusted_p_value=raw.tolist(),
     )
     return _finish(data, method, alpha, error_rate, critical, rows, notes, interval, df, s)
 
