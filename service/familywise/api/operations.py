@@ -25,7 +25,7 @@ from familywise.api.schemas.omnibus import OmnibusRequest
 from familywise.api.serialize import family_json, plain, provenance
 from familywise.stats import contrasts as contrast_rules
 from familywise.stats.errors import DataError
-from familywise.stats.families import contrast_family, pairwise, versus_best, versus_control
+from familywise.stats.families import FamilyResult, contrast_family, pairwise, versus_best, versus_control
 from familywise.stats.families.equivalence import equivalence_family
 from familywise.stats.omnibus import anova_table, omnibus
 from familywise.stats.planning import cohens_f_from_means, plan_family, plan_omnibus
@@ -40,36 +40,56 @@ def run_omnibus(request) -> dict[str, Any]:
     return plain(omnibus(one_way_data(request.groups), request.alpha))
 
 
-def run_pairwise(request) -> dict[str, Any]:
+def compute_pairwise(request) -> FamilyResult:
     data = one_way_data(request.groups)
     omnibus_p = anova_table(data).p_value if request.method == "lsd" and request.protected else None
-    return family_json(pairwise(data, request.method, request.alpha, protected=request.protected,
-                                dunn_adjustment=request.dunn_adjustment, omnibus_p_value=omnibus_p))
+    return pairwise(data, request.method, request.alpha, protected=request.protected,
+                    dunn_adjustment=request.dunn_adjustment, omnibus_p_value=omnibus_p)
 
 
-def run_control(request) -> dict[str, Any]:
-    return family_json(versus_control(one_way_data(request.groups), request.control, request.method,
-                                      request.alternative, request.alpha))
+def compute_control(request) -> FamilyResult:
+    return versus_control(one_way_data(request.groups), request.control, request.method, request.alternative,
+                          request.alpha)
 
 
-def run_best(request) -> dict[str, Any]:
-    return family_json(versus_best(one_way_data(request.groups), request.best, request.alpha))
+def compute_best(request) -> FamilyResult:
+    return versus_best(one_way_data(request.groups), request.best, request.alpha)
 
 
-def run_contrasts(request) -> dict[str, Any]:
+def compute_contrasts(request) -> FamilyResult:
     data = one_way_data(request.groups)
     names, matrix = contrast_rules.coefficient_matrix(
         data.labels, [(c.name, c.coefficients) for c in request.contrasts])
     contrast_rules.require_contrasts_sum_to_zero(names, matrix)
-    return family_json(contrast_family(data, names, matrix, request.adjustment, request.alpha))
+    return contrast_family(data, names, matrix, request.adjustment, request.alpha)
 
 
-def run_equivalence(request) -> dict[str, Any]:
+def compute_equivalence(request) -> FamilyResult:
     margin = request.margin
     relative = not isinstance(margin, float)
     value = margin.relative if relative else margin
-    return family_json(equivalence_family(one_way_data(request.groups), request.reference, value, relative,
-                                          request.kind, request.method, request.alpha))
+    return equivalence_family(one_way_data(request.groups), request.reference, value, relative, request.kind,
+                              request.method, request.alpha)
+
+
+def run_pairwise(request) -> dict[str, Any]:
+    return family_json(compute_pairwise(request))
+
+
+def run_control(request) -> dict[str, Any]:
+    return family_json(compute_control(request))
+
+
+def run_best(request) -> dict[str, Any]:
+    return family_json(compute_best(request))
+
+
+def run_contrasts(request) -> dict[str, Any]:
+    return family_json(compute_contrasts(request))
+
+
+def run_equivalence(request) -> dict[str, Any]:
+    return family_json(compute_equivalence(request))
 
 
 FAMILY_MODELS: dict[str, type[BaseModel]] = {
@@ -79,6 +99,20 @@ FAMILY_MODELS: dict[str, type[BaseModel]] = {
     "contrasts": ContrastsRequest,
     "equivalence": EquivalenceRequest,
 }
+
+FAMILY_COMPUTATIONS: dict[type[BaseModel], Callable[[Any], FamilyResult]] = {
+    PairwiseRequest: compute_pairwise,
+    ControlRequest: compute_control,
+    BestRequest: compute_best,
+    ContrastsRequest: compute_contrasts,
+    EquivalenceRequest: compute_equivalence,
+}
+
+
+def compute_family(request: BaseModel) -> FamilyResult:
+    """The FamilyResult of a family's own request model (figures draw it)."""
+    return FAMILY_COMPUTATIONS[type(request)](request)
+
 
 FAMILY_RUNNERS: dict[str, Callable[[Any], dict[str, Any]]] = {
     "pairwise": run_pairwise,

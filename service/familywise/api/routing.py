@@ -87,6 +87,10 @@ class FamilywiseRoute(APIRoute):
     the statistics.
     """
 
+    #: Run every request of the route off the event loop (under the time limit),
+    #: not only the large ones: for routes whose work is slow at any size.
+    offload = False
+
     def __init__(self, *args: Any, **kwargs: Any) -> None:
         extra = kwargs.get("openapi_extra") or {}
         self.accepts_csv = bool(extra.get("x-accepts-csv"))
@@ -109,6 +113,7 @@ class FamilywiseRoute(APIRoute):
                 return plain_endpoint(validated)
 
         operation = self.path
+        offload = self.offload
 
         async def handler(request: Request) -> Response:
             obj = await decode_body(request, accepts_csv)
@@ -120,7 +125,7 @@ class FamilywiseRoute(APIRoute):
                 ) from None
             started = time.perf_counter()
             settings: Settings = request.app.state.settings
-            if is_large(obj, settings):
+            if offload or is_large(obj, settings):
                 response = await _bounded(endpoint(validated, settings), settings.compute_timeout_seconds)
             else:
                 response = await endpoint(validated, settings)

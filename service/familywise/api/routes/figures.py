@@ -19,17 +19,15 @@ from fastapi.exceptions import RequestValidationError
 from pydantic import ValidationError
 
 from familywise import __version__, figures
-from familywise.api import examples
+from familywise.api import examples, operations
 from familywise.api.problems import ProblemError
 from familywise.api.routing import ACCEPTS_CSV, FamilywiseRoute, one_way_data
-from familywise.api.schemas.families import BestRequest, ContrastsRequest, ControlRequest, PairwiseRequest
+from familywise.api.schemas.families import ContrastsRequest
 from familywise.api.schemas.figures import DifferencesFigureRequest, MeansFigureRequest
 from familywise.api.schemas.problem import STANDARD_REFUSALS
 from familywise.api.serialize import canonical_sha256
-from familywise.stats import contrasts as contrast_rules
 from familywise.stats.data import summarise
-from familywise.stats.families import FamilyResult, contrast_family, pairwise, versus_best, versus_control
-from familywise.stats.omnibus import anova_table
+from familywise.stats.families import pairwise
 
 # --------------------------------------------------------------------------
 # content negotiation
@@ -83,7 +81,10 @@ FORMAT: ContextVar[str] = ContextVar("familywise_figure_format", default="svg")
 
 
 class FigureRoute(FamilywiseRoute):
-    """FamilywiseRoute that negotiates the figure's format before anything else."""
+    """FamilywiseRoute that negotiates the figure's format before anything else,
+    and draws off the event loop (a figure takes a tenth of a second or more)."""
+
+    offload = True
 
     def get_route_handler(self) -> Callable[[Request], Coroutine[Any, Any, Response]]:
         inner = super().get_route_handler()
@@ -222,7 +223,7 @@ async def differences_figure_endpoint(
         request.family, len(getattr(follow, "contrasts", None) or ()))
     _check_rows(rows, "/contrasts" if request.family == "contrasts" else "/groups",
                 f"the {request.family} comparisons of this request")
-    result = _family_result(follow)
+    result = operations.compute_family(follow)
     if result.interval == "none":  # pragma: no cover - every such method is refused above
         _refuse_stepwise(request.family, result.method)
     text = _text(request, "/v1/figures/differences")
@@ -238,19 +239,3 @@ def _refuse_stepwise(family: str, method: str) -> None:
                        errors=[{"pointer": pointer, "rule": "figure-needs-intervals", "detail": detail}])
 
 
-def _family_result(follow: Any) -> FamilyResult:
-    """The family's result, computed as /v1/followup/{family} computes it."""
-    data = one_way_data(follow.groups)
-    if isinstance(follow, PairwiseRequest):
-        protected = follow.method == "lsd" and follow.protected
-        omnibus_p = anova_table(data).p_value if protected else None
-        return pairwise(data, follow.method, follow.alpha, protected=follow.protected,
-                        dunn_adjustment=follow.dunn_adjustment, omnibus_p_value=omnibus_p)
-    if isinstance(follow, ControlRequest):
-        return versus_control(data, follow.control, follow.method, follow.alternative, follow.alpha)
-    if isinstance(follow, BestRequest):
-        return versus_best(data, follow.best, follow.alpha)
-    names, matrix = contrast_rules.coefficient_matrix(
-        data.labels, [(c.name, c.coefficients) for c in follow.contrasts])
-    contrast_rules.require_contrasts_sum_to_zero(names, matrix)
-    return contrast_family(data, names, matrix, follow.adjustment, follow.alpha)
