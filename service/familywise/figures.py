@@ -525,3 +525,13 @@ def _render(fig: Figure, fmt: str, text: FigureText) -> bytes:
         warnings.filterwarnings("ignore", message=r"Glyph \d+ .*missing from font", category=UserWarning)
         fig.savefig(buffer, format=fmt, dpi=PNG_DPI, metadata=meta)
     return buffer.getvalue()
+
+
+def warm_up() -> None:
+    """Import the drawing stack and draw one small figure in each format, so
+    that the first real figure does not pay for loading matplotlib's fonts."""
+    from familywise.stats.data import OneWayData, summarise
+
+    data = OneWayData.from_arrays(["a", "b"], [[1.0, 2.0, 3.0], [2.0, 3.0, 4.5]])
+    for fmt in MEDIA_TYPES:
+        means_figure(summarise(data), alpha=0.05, interval="group", text=FigureText(), fmt=fmt)

@@ -101,10 +101,12 @@ def _start_warm_up(app: FastAPI) -> None:
         return
 
     def run() -> None:
+        from familywise import figures
         from familywise.stats.distributions import warm_up
 
         try:
             warm_up()
+            figures.warm_up()
         except Exception:  # pragma: no cover - reported, and readiness never set
             log.exception("warm-up failed")
             return
