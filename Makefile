@@ -26,6 +26,7 @@ lint: install
 
 openapi: install
 	$(BIN)/familywise openapi --output openapi/openapi.json
+	$(BIN)/python clients/python/tools/generate_models.py
 
 validate: install
 	$(BIN)/familywise validate

@@ -42,6 +42,23 @@ def test_same_request_same_bytes_and_hash_ignores_formatting(client) -> None:
     assert text.json()["provenance"]["input_sha256"] == a.json()["provenance"]["input_sha256"]
 
 
+def _hash_of(client, values: list[str]) -> str:
+    first = ", ".join(values)
+    body = '{"groups": [{"label": "a", "values": [' + first + ']}, {"label": "b", "values": [1, 2, 4]}]}'
+    response = client.post("/v1/omnibus", content=body, headers={"content-type": "application/json"})
+    assert response.status_code == 200, response.text
+    return response.json()["provenance"]["input_sha256"]
+
+
+def test_hash_sees_every_digit_and_only_the_value(client) -> None:
+    # The hash names the exact input (design: provenance); values differing in the
+    # 35th significant digit are different inputs, -0.0 and 0 are the same number.
+    long = "1.0000000000000000000000000000000000001"
+    longer = "1.0000000000000000000000000000000000002"
+    assert _hash_of(client, [long, "2", "3"]) != _hash_of(client, [longer, "2", "3"])
+    assert _hash_of(client, ["-0.0", "2", "3"]) == _hash_of(client, ["0", "2.000", "3"])
+
+
 def test_csv_long_and_wide_equal_json(client) -> None:
     groups = examples.UNBALANCED_PLATE["groups"]
     reference = client.post("/v1/omnibus", json={"groups": groups, "alpha": 0.1}).json()

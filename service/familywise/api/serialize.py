@@ -6,7 +6,7 @@ import dataclasses
 import hashlib
 import math
 import platform
-from decimal import Decimal
+from decimal import MAX_EMAX, MAX_PREC, MIN_EMIN, Context, Decimal
 from functools import cache
 from typing import Any
 
@@ -85,10 +85,15 @@ def _simple(value: Any) -> Any:
     return plain(value)
 
 
+# Normalising under the default 28-digit context would round: two requests
+# differing in the 29th digit must not share a hash.
+_EXACT = Context(prec=MAX_PREC, Emax=MAX_EMAX, Emin=MIN_EMIN)
+
+
 def _decimal_text(value: Decimal) -> str:
     """A number's canonical text: its exact value, trailing zeros removed
-    (41.20 and 41.2 are the same number)."""
-    return str(value.normalize())
+    (41.20 and 41.2 are the same number; so are 0 and -0.0)."""
+    return str(_EXACT.normalize(value)) if value else "0"
 
 
 def _canonical_default(value: Any) -> Any:
@@ -112,7 +117,7 @@ def canonical_sha256(request: Any) -> str:
     if isinstance(groups, list):
         for group in groups:
             if isinstance(group, dict) and isinstance(group.get("values"), list):
-                lines.append(",".join(map(str, map(Decimal.normalize, group.pop("values")))))
+                lines.append(",".join(map(_decimal_text, group.pop("values"))))
     text = orjson.dumps(dumped, default=_canonical_default, option=orjson.OPT_SORT_KEYS).decode()
     return hashlib.sha256("\n".join([text, *lines]).encode("utf-8")).hexdigest()
 
