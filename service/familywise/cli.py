@@ -5,6 +5,7 @@ from __future__ import annotations
 import argparse
 import json
 import os
+import signal
 import sys
 import tempfile
 
@@ -31,6 +32,12 @@ def _serve(args: argparse.Namespace) -> int:
     if args.workers > 1 and not os.environ.get("PROMETHEUS_MULTIPROC_DIR"):
         # Each worker writes its metrics here; /metrics aggregates them.
         os.environ["PROMETHEUS_MULTIPROC_DIR"] = tempfile.mkdtemp(prefix="familywise-metrics-")
+    if args.workers <= 1:
+        # uvicorn, once it has shut down gracefully on SIGTERM, raises the signal
+        # again for the handler it found: let that be one that exits with status
+        # 0, as a clean shutdown should (with several workers the supervisor
+        # does so already). Before uvicorn takes over, SIGTERM ends the start-up.
+        signal.signal(signal.SIGTERM, lambda signum, frame: sys.exit(0))
     print(f"familywise: interactive API docs at http://{args.host}:{args.port}/docs", flush=True)
     print("familywise: try a request:", flush=True)
     print("  " + DEMO_REQUEST.format(host=args.host, port=args.port), flush=True)

@@ -20,6 +20,7 @@ from dataclasses import dataclass
 
 import httpx
 import pytest
+
 from tests.load import LiveServer
 
 GRACE_SECONDS = 15
@@ -93,13 +94,7 @@ def test_the_server_exits_within_the_grace_period(workers: int) -> None:
     assert "Application shutdown complete" in outcome.log
 
 
-@pytest.mark.parametrize("workers", [
-    pytest.param(1, marks=pytest.mark.xfail(
-        strict=True, reason="single process: uvicorn re-raises the SIGTERM it caught once it has shut down "
-        "cleanly (Server.capture_signals), so `familywise serve` dies by the signal (status -15, 143 in a "
-        "shell) instead of exiting 0; with --workers 2 the supervisor exits 0")),
-    2,
-])
+@pytest.mark.parametrize("workers", [1, 2])
 def test_the_server_exits_with_status_zero(workers: int) -> None:
     assert shutdown_during_request(workers).exit_status == 0
 
@@ -112,11 +107,9 @@ def _alive(pid: int) -> bool:
         return False
 
 
-@pytest.mark.xfail(strict=True, reason="the batch endpoint's process pool is never shut down, and its workers, "
-                   "forked from a uvicorn worker, inherit uvicorn's SIGTERM handler (which only sets a flag): after "
-                   "SIGTERM the server exits and the pool processes stay behind, orphaned, ignoring SIGTERM")
 def test_batch_pool_processes_end_with_the_server() -> None:
-    """Minimal reproduction: one batch of 64 items (enough for the process pool), then SIGTERM."""
+    """One batch of 64 items (enough for the process pool), then SIGTERM: the pool's processes end with the
+    server, none is left behind."""
     items = [{"id": f"analyte {i}", "operation": "omnibus",
               "request": {"groups": [{"label": "well A", "values": [41.2, 43.8, 42.5]},
                                      {"label": "well B", "values": [48.7, 50.2, 49.5]}]}} for i in range(64)]

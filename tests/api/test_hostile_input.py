@@ -3,9 +3,7 @@
 A lab pipeline sends whatever its instrument produced. Every case here is
 answered by a problem document (application/problem+json) whose status,
 rule and (where a field is at fault) pointer are fixed, never by a 5xx and
-never by a guess. The cases that today end in a 5xx are recorded as
-xfail(strict=True) with their minimal reproduction, so that the marker goes
-when the service is fixed.
+never by a guess.
 
 The request data are invented (a plate assay's wells).
 """
@@ -178,22 +176,21 @@ def test_huge_numbers(client, case, path, content, status, rule, pointer) -> Non
         assert problem["pointer"].split("/")[1] in json.loads(content), problem
 
 
-HUGE_EXPONENT = pytest.mark.xfail(
-    strict=True, reason="a value with an exponent beyond Decimal's default range (1e999999999, "
-    "1e99999999999999999999) passes validation (a finite Decimal) and then overflows the exact "
-    "subtraction in OneWayData.from_decimals (decimal.Overflow / InvalidOperation): 500")
-
-
-@HUGE_EXPONENT
-@pytest.mark.parametrize("value", ["1e999999999", "1e99999999999999999999", "-1e999999999"])
-def test_known_bug_huge_exponents_in_json(client, value) -> None:
-    """Minimal reproduction: POST /v1/omnibus with one such value among ordinary ones (expected: 422 finite)."""
+@pytest.mark.parametrize("value", ["1e999999999", "-1e999999999"])
+def test_huge_exponents_in_json(client, value) -> None:
+    """A well-formed decimal far beyond double range (its exact difference from the other values would
+    overflow decimal's own range): refused as not finite, naming the value."""
     assert_problem(client.post("/v1/omnibus", content=_groups_with(f"{value}, 1, 2"), headers=JSON),
                    422, "finite", "/groups/0/values/0")
 
 
-@HUGE_EXPONENT
-def test_known_bug_huge_exponents_in_csv(client) -> None:
+def test_exponent_beyond_decimal_range_in_json(client) -> None:
+    """An exponent that decimal cannot even represent: read as an infinity, refused naming the value."""
+    assert_problem(client.post("/v1/omnibus", content=_groups_with("1e99999999999999999999, 1, 2"),
+                               headers=JSON), 422, "value_error", "/groups/0/values/0")
+
+
+def test_huge_exponents_in_csv(client) -> None:
     body = b"group,value\nwell A,1e999999999\nwell A,1\nwell B,2\nwell B,3\n"
     assert_problem(client.post("/v1/omnibus", content=body, headers=CSV), 422, "finite", "/groups/0/values/0")
 
@@ -205,46 +202,68 @@ def test_tiny_exponents_are_numbers_near_zero(client) -> None:
     assert response.json()["groups"][0]["minimum"] == 0.0
 
 
-#: Hostile but well-formed requests that end in a 500 today (each a minimal reproduction; expected: a 422
-#: problem naming the field). xfail(strict=True): each fails loudly once fixed, so its entry goes.
-KNOWN_500 = [
+#: Hostile but well-formed parameters (each once answered with a 500): a 422 naming the field and the rule.
+HOSTILE_PARAMETERS = [
     ("plan: pairwise family for k = 501 groups", "/v1/plan",
-     '{"k": 501, "power": 0.8, "family": "pairwise", "effect": {"sd": 1}, "difference": 1}',
-     "k is not bounded (FAMILYWISE_MAX_GROUPS does not apply to /v1/plan) and the family's critical "
-     "value is NaN for k > 500: the serialiser refuses the NaN"),
+     '{"k": 501, "power": 0.8, "family": "pairwise", "effect": {"sd": 1}, "difference": 1}', "k", "/k"),
     ("plan: omnibus for k = 1e308 groups", "/v1/plan", '{"k": 1e308, "power": 0.8, "effect": {"cohens_f": 0.25}}',
-     "k is not bounded: the root finder meets NaN (ValueError from brentq)"),
-    ("plan: power just above alpha", "/v1/plan", '{"k": 3, "power": 0.0500001, "effect": {"cohens_f": 0.25}}',
-     "the root finder's bracket has no sign change (ValueError from brentq)"),
-    ("plan: Cohen's f of 1e300", "/v1/plan", '{"k": 3, "power": 0.8, "effect": {"cohens_f": 1e300}}',
-     "the noncentral F power is NaN for a huge noncentrality (ValueError from brentq)"),
-    ("contrast coefficients of 1e-300", "/v1/followup/contrasts",
-     _w('{"groups": @WELLS, "contrasts": [{"name": "B - A", "coefficients": {"well A": -1e-300, '
-        '"well B": 1e-300}}]}'),
-     "the contrast's weighted norm underflows to 0 (0/0 in its standard error and statistic)"),
+     "int_range", "/k"),
+    ("plan: Cohen's f of 1e300", "/v1/plan", '{"k": 3, "power": 0.8, "effect": {"cohens_f": 1e300}}', "effect",
+     "/effect"),
+    ("plan: means of 1e308 and -1e308", "/v1/plan",
+     '{"k": 3, "power": 0.8, "effect": {"means": [0, 1e308, -1e308], "sd": 1}}', "effect", "/effect"),
+    ("plan: zero SD with means", "/v1/plan", '{"k": 3, "power": 0.8, "effect": {"means": [1, 2, 3], "sd": 0}}',
+     "sd", "/effect/sd"),
+    ("plan: difference of 1e300 SDs", "/v1/plan",
+     '{"k": 3, "power": 0.8, "family": "pairwise", "effect": {"sd": 1e-300}, "difference": 1e300}', "difference",
+     "/difference"),
     ("recommendation for a group size of 1e308", "/v1/recommendation",
-     '{"question": {}, "sizes": {"well A": 1e308, "well B": 3}}',
-     "sizes are not range-checked here as they are in /v1/contrasts/validate (rule size_range)"),
+     '{"question": {}, "sizes": {"well A": 1e308, "well B": 3}}', "int_range", "/sizes/well A"),
+    ("alpha: the smallest subnormal", "/v1/omnibus", _w('{"groups": @WELLS, "alpha": 5e-324}'), "alpha_range",
+     "/alpha"),
 ]
 
 
-@pytest.mark.parametrize(("case", "path", "content", "reason"), [
-    pytest.param(*k, marks=pytest.mark.xfail(strict=True, reason=k[3]), id=k[0]) for k in KNOWN_500])
-def test_known_bug_hostile_parameters(case, path, content, reason) -> None:
-    quiet = TestClient(create_app(Settings(warm_up=False)), raise_server_exceptions=False)
-    response = quiet.post(path, content=content, headers=JSON)
-    assert response.status_code == 422, response.text
-    assert response.headers["content-type"] == PROBLEM
+@pytest.mark.parametrize(("case", "path", "content", "rule", "pointer"), HOSTILE_PARAMETERS,
+                         ids=[k[0] for k in HOSTILE_PARAMETERS])
+def test_hostile_parameters(client, case, path, content, rule, pointer) -> None:
+    assert_problem(client.post(path, content=content, headers=JSON), 422, rule, pointer)
 
 
-@pytest.mark.xfail(strict=True, reason="values near 1e-300 are refused as 'every group is constant "
-                   "(zero within-group variance)': the squared deviations underflow to 0, although the data "
-                   "(the same as a well-behaved plate times 1e-300) are not constant")
-def test_known_bug_values_near_the_bottom_of_the_double_range(client) -> None:
+def test_power_just_above_alpha_is_planned(client) -> None:
+    """A target power barely above alpha is reached by the smallest design (two per group), and said so."""
+    response = client.post("/v1/plan", content='{"k": 3, "power": 0.0500001, "effect": {"cohens_f": 0.25}}',
+                           headers=JSON)
+    assert response.status_code == 200, response.text
+    plan = response.json()
+    assert plan["n_per_group"] == 2
+    assert plan["achieved_power"] >= 0.0500001
+
+
+def test_contrast_coefficients_of_any_magnitude(client) -> None:
+    """Coefficients of 1e-300 are the contrast B - A scaled: the same t and p as coefficients of 1, and the
+    estimate and its SE scaled by 1e-300 (scale invariance of t = L / SE; Scheffé 1959, ch. 3)."""
+    def answer(size: str) -> dict:
+        body = _w('{"groups": @WELLS, "contrasts": [{"name": "B - A", "coefficients": {"well A": -' + size
+                  + ', "well B": ' + size + '}}]}')
+        response = client.post("/v1/followup/contrasts", content=body, headers=JSON)
+        assert response.status_code == 200, response.text
+        return response.json()["comparisons"][0]
+    tiny, unit = answer("1e-300"), answer("1")
+    assert tiny["statistic"] == pytest.approx(unit["statistic"], rel=1e-14)
+    assert tiny["p_value"] == pytest.approx(unit["p_value"], rel=1e-14)
+    assert tiny["difference"] == pytest.approx(unit["difference"] * 1e-300, rel=1e-14)
+    assert tiny["se"] == pytest.approx(unit["se"] * 1e-300, rel=1e-14)
+
+
+def test_values_near_the_bottom_of_the_double_range(client) -> None:
+    """Values that differ by about 1e-300 cannot be squared in double precision: a 422 that says to rescale,
+    never a claim that the groups are constant."""
     body = ('{"groups": [{"label": "well A", "values": [1e-300, 2e-300, 3e-300]}, '
             '{"label": "well B", "values": [4e-300, 5e-300, 7e-300]}]}')
-    response = client.post("/v1/followup/pairwise", content=body, headers=JSON)
-    assert response.status_code == 200, response.text
+    problem = assert_problem(client.post("/v1/followup/pairwise", content=body, headers=JSON), 422, "spread",
+                             "/groups")
+    assert "rescale" in problem["detail"]
 
 
 STRINGS = [
@@ -269,21 +288,21 @@ def test_numbers_as_strings_are_refused(client, case, path, content, rule, point
     assert_problem(client.post(path, content=content, headers=JSON), 422, rule, pointer)
 
 
-@pytest.mark.xfail(strict=True, reason="a string where a union of number and object is expected (equivalence "
-                   "margin) gets a pointer with pydantic's internal branch names, "
-                   "'/margin/function-plain[_number()]', instead of '/margin'")
-def test_known_bug_union_field_pointer(client) -> None:
-    body = _w('{"groups": @WELLS, "reference": "well A", "margin": "1"}')
-    assert_problem(client.post("/v1/followup/equivalence", content=body, headers=JSON), 422, "number_type",
-                   "/margin")
+UNION_POINTERS = [  # the margin is a number or {"relative": fraction}: the pointer names what was sent
+    ('"1"', "number_type", "/margin"),
+    ("null", "number_type", "/margin"),
+    ('{"relative": "0.1"}', "number_type", "/margin/relative"),
+    ("{}", "missing", "/margin/relative"),
+    ('{"relative": 0.1, "absolute": 2}', "extra_forbidden", "/margin/absolute"),
+]
 
 
-def test_margin_as_string_is_still_refused(client) -> None:
-    """Whatever its pointer (see the known bug above), a string margin is a 422 naming the margin."""
-    body = _w('{"groups": @WELLS, "reference": "well A", "margin": "1"}')
-    problem = assert_problem(client.post("/v1/followup/equivalence", content=body, headers=JSON), 422,
-                             "number_type")
-    assert problem["pointer"].startswith("/margin")
+@pytest.mark.parametrize(("margin", "rule", "pointer"), UNION_POINTERS, ids=[u[0] for u in UNION_POINTERS])
+def test_union_field_pointer_names_the_field(client, margin, rule, pointer) -> None:
+    body = _w('{"groups": @WELLS, "reference": "well A", "margin": ' + margin + '}')
+    problem = assert_problem(client.post("/v1/followup/equivalence", content=body, headers=JSON), 422, rule,
+                             pointer)
+    assert len(problem["errors"]) == 1, problem
 
 
 CSV_NUMBERS = [

@@ -382,18 +382,21 @@ def test_cors_origins_from_the_environment(monkeypatch) -> None:
     assert Settings.from_env().cors_origins == (LIMS, "http://localhost:3000")
 
 
-@pytest.mark.xfail(strict=True, reason="the refusal of a preflight from an origin not configured is Starlette's "
-                   "400 text/plain 'Disallowed CORS origin', not a problem+json document")
-def test_known_bug_disallowed_origin_refusal_is_not_problem_json(cors) -> None:
+def test_disallowed_origin_refusal_is_a_problem_document(cors) -> None:
     response = cors.options("/v1/omnibus", headers={**PREFLIGHT, "origin": "https://elsewhere.example"})
+    assert response.status_code == 400
     assert response.headers["content-type"] == PROBLEM
+    assert response.json()["rule"] == "cors"
 
 
-@pytest.mark.xfail(strict=True, reason="with API keys and CORS both configured, the key check runs before CORS: "
-                   "a browser's preflight (OPTIONS, which never carries Authorization) gets 401 without CORS "
-                   "headers, so no browser client can call the service")
-def test_known_bug_preflight_with_api_keys() -> None:
+def test_preflight_with_api_keys_needs_no_key() -> None:
+    """A browser's preflight never carries Authorization: CORS answers it before the key check, and the
+    key is then required on the request itself, whose refusal carries the CORS headers the page needs."""
     client = app_client(api_keys=KEYS, cors_origins=(LIMS,))
     response = client.options("/v1/omnibus", headers=PREFLIGHT)
     assert response.status_code == 200
     assert response.headers["access-control-allow-origin"] == LIMS
+    refused = client.post("/v1/omnibus", json={"groups": WELLS}, headers={"origin": LIMS})
+    assert refused.status_code == 401
+    assert refused.headers["content-type"] == PROBLEM
+    assert refused.headers["access-control-allow-origin"] == LIMS

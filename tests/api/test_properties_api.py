@@ -18,10 +18,6 @@ service ingests is exactly the shifted, scaled or reordered data.
 * The omnibus answer is the same bytes for JSON and CSV bodies (long and
   wide layouts).
 
-The known bugs recorded (xfail, strict) in tests/unit/test_properties.py are
-tolerated here by the same narrow allowances, so that this file stays green
-until they are fixed; remove the allowances with those markers.
-
 Data are invented: small groups of two-decimal numbers drawn by hypothesis.
 """
 
@@ -45,10 +41,6 @@ PROPERTY = settings(max_examples=EXAMPLES, deadline=None,
 RTOL = 1e-9
 P_FLOOR = 1e-290
 P_FIELDS = ("p_value", "unadjusted_p_value", "p_lower", "p_upper")
-#: Known bugs (see tests/unit/test_properties.py): distribution-based p-values a little above 1; Šidák and
-#: Benjamini-Hochberg a unit in the last place below the unadjusted p-value.
-P_ABOVE_ONE = 1e-7
-ULP_BELOW = 4 * 2.0**-53
 #: Relative accuracy of the distribution-based p-values where they meet the unadjusted ones (one comparison,
 #: or p near 1): the studentized-range and many-to-one codes agree with the t distribution to about 1e-9
 #: there (for three identical groups Dunnett's p is 0.9999999989525179 where the t test's is 1).
@@ -271,8 +263,7 @@ def test_omnibus_under_scaling(client, groups, factor, alpha) -> None:
     for key in ("f", "p_value", "r_squared"):
         assert a1["anova"][key] == pytest.approx(a0["anova"][key], rel=RTOL, abs=P_FLOOR if key == "p_value" else 1e-12)
     assert a1["anova"]["residual_sd"] == pytest.approx(a0["anova"]["residual_sd"] * a, rel=RTOL)
-    # Levene's test is left out: see test_known_bug_levene_on_degenerate_spreads in the unit file
-    for test in ("welch", "brown_forsythe", "kruskal_wallis", "shapiro_wilk"):
+    for test in ("welch", "brown_forsythe", "kruskal_wallis", "shapiro_wilk", "levene"):
         t0, t1 = a0[test], a1[test]
         assert (t0["p_value"] is None) == (t1["p_value"] is None), test
         if t0["p_value"] is not None:
@@ -386,32 +377,24 @@ def _p_values(obj: Any, path: str = ""):
             yield from _p_values(value, f"{path}/{i}")
 
 
-def _known_one_sided_zero_bug(family: dict, row: dict) -> bool:
-    """The rows of test_known_bug_one_sided_dunnett_at_alpha_one_half (unit file)."""
-    return (family["family"] == "control" and family["method"] == "dunnett"
-            and family["alternative"] in ("greater", "less") and family["alpha"] == 0.5 and row["difference"] == 0.0)
-
-
 @PROPERTY
 @given(groups=layouts(), alpha=st.sampled_from(ALPHAS), operation=st.sampled_from(OPERATIONS))
 def test_p_values_intervals_and_adjustments(client, groups, alpha, operation) -> None:
     path, extra = operation
     answer = post(client, path, body(groups, extra, alpha))
-    exact = not families(answer) or families(answer)[0]["method"] in ARITHMETIC
     for where, p in _p_values(without_provenance(answer)):
-        assert 0.0 <= p <= 1.0 + (0.0 if exact else P_ABOVE_ONE), (where, p)
+        assert 0.0 <= p <= 1.0, (where, p)
     for family in families(answer):
         method = family["method"]
         for row in family["comparisons"]:
-            if not _known_one_sided_zero_bug(family, row):
-                if row["ci_low"] is not None:
-                    assert row["ci_low"] <= row["difference"], row
-                if row["ci_high"] is not None:
-                    assert row["difference"] <= row["ci_high"], row
+            if row["ci_low"] is not None:
+                assert row["ci_low"] <= row["difference"], row
+            if row["ci_high"] is not None:
+                assert row["difference"] <= row["ci_high"], row
             if row.get("unadjusted_p_value") is not None:
                 raw = row["unadjusted_p_value"]
                 if method in ARITHMETIC:
-                    slack = ULP_BELOW * raw if method in ("sidak", "benjamini_hochberg") else 0.0
+                    slack = 0.0
                 else:
                     slack = DISTRIBUTION_RTOL * raw + P_FLOOR + (family.get("probability_error") or 0.0)
                 assert row["p_value"] >= raw - slack, (method, row)

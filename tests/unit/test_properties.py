@@ -63,15 +63,8 @@ PAIRWISE_METHODS = ("tukey_kramer", "lsd", "bonferroni", "sidak", "holm", "games
 #: only in the limit of one comparison, where both are computed independently and agree to rounding.
 ARITHMETIC = ("lsd", "bonferroni", "sidak", "holm", "benjamini_hochberg", "dunn", "none")
 CONTRAST_ADJUSTMENTS = ("none", "bonferroni", "sidak", "holm", "benjamini_hochberg", "multivariate_t", "scheffe")
-#: Omnibus tests compared under scaling and reordering (Levene's too, except on the data that expose the
-#: known bug of test_known_bug_levene_on_degenerate_spreads).
-SCALE_FREE_TESTS = ("welch", "brown_forsythe", "kruskal_wallis", "shapiro_wilk")
-#: Known bug (test_known_bug_p_values_above_one): p-values from the studentized-range and many-to-one
-#: distribution code can exceed 1 by a few units in the last place; tolerated up to this bound meanwhile.
-P_ABOVE_ONE = 1e-7
-#: Known bug (test_known_bug_adjusted_below_unadjusted): Šidák and Benjamini-Hochberg can give an adjusted
-#: p-value one unit in the last place below the unadjusted one; tolerated up to this relative bound meanwhile.
-ULP_BELOW = 4 * 2.0**-53
+#: Omnibus tests compared under scaling and reordering.
+SCALE_FREE_TESTS = ("welch", "brown_forsythe", "kruskal_wallis", "shapiro_wilk", "levene")
 #: Relative accuracy of the distribution-based p-values where they meet the unadjusted ones (one comparison,
 #: or p near 1): the studentized-range and many-to-one codes agree with the t distribution to about 1e-9
 #: there (for three identical groups Dunnett's p is 0.9999999989525179 where the t test's is 1).
@@ -256,7 +249,7 @@ def test_positive_scale_changes_only_the_units(groups, factor, alpha) -> None:
     close(o0.anova.r_squared, o1.anova.r_squared, 1.0, "R squared")
     close(o0.anova.within.ss * a * a, o1.anova.within.ss, o0.anova.total.ss * a * a, "within SS")
     close(o0.anova.residual_sd * a, o1.anova.residual_sd, o0.anova.residual_sd * a, "residual SD")
-    for field in SCALE_FREE_TESTS + (() if levene_degenerate(groups) else ("levene",)):
+    for field in SCALE_FREE_TESTS:
         t0, t1 = getattr(o0, field), getattr(o1, field)
         assert type(t0) is type(t1), field
         if isinstance(t0, HypothesisTest):
@@ -390,7 +383,7 @@ def test_reordering_groups_or_values_changes_only_the_order(groups, seed, alpha)
     o0, o1 = omnibus(base, alpha), omnibus(other, alpha)
     close(o0.anova.f, o1.anova.f, max(o0.anova.f, 1e-6), "F")
     close_p(o0.anova.p_value, o1.anova.p_value, "ANOVA p")
-    for field in SCALE_FREE_TESTS + (() if levene_degenerate(groups) else ("levene",)):
+    for field in SCALE_FREE_TESTS:
         t0, t1 = getattr(o0, field), getattr(o1, field)
         assert type(t0) is type(t1), field
         if isinstance(t0, HypothesisTest):
@@ -452,12 +445,9 @@ def _all_p_values(result) -> list[tuple[str, float]]:
 def test_p_values_lie_in_the_unit_interval_and_intervals_contain_their_estimates(groups, alpha) -> None:
     data = labelled(groups)
     for name, result in every_family(data, alpha):
-        above = 0.0 if name.split("/")[1] in ARITHMETIC else P_ABOVE_ONE
         for what, p in _all_p_values(result):
-            assert 0.0 <= p <= 1.0 + above, (name, what, p)
+            assert 0.0 <= p <= 1.0, (name, what, p)
         for row in result.comparisons:
-            if _known_one_sided_zero_bug(name, row, alpha):
-                continue
             if row.ci_low is not None:
                 assert row.ci_low <= row.difference, (name, row)
             if row.ci_high is not None:
@@ -475,12 +465,6 @@ def test_p_values_lie_in_the_unit_interval_and_intervals_contain_their_estimates
     # population value, and the sample eta squared (biased upwards) may lie above it when F is small,
     # so only its own order and range are properties here.
     assert 0.0 <= effect.eta_squared_ci_low <= effect.eta_squared_ci_high <= 1.0
-
-
-def _known_one_sided_zero_bug(name: str, row, alpha: float) -> bool:
-    """The rows of the known bug of test_known_bug_one_sided_dunnett_at_alpha_one_half."""
-    return (name in ("control/dunnett/greater", "control/dunnett/less") and alpha == 0.5
-            and row.difference == 0.0)
 
 
 def _unadjusted(name: str, row, alternative: str | None) -> float | None:
@@ -516,10 +500,8 @@ def test_adjusted_p_values_are_never_below_the_unadjusted(groups, alpha) -> None
         for adjusted, unadjusted in pairs:
             if unadjusted is None:
                 continue
-            if exact:
-                slack = ULP_BELOW * unadjusted if method in ("sidak", "benjamini_hochberg") else 0.0
-            else:  # plus the stated bound where the probability is a Monte Carlo estimate
-                slack = DISTRIBUTION_RTOL * unadjusted + P_FLOOR + (result.probability_error or 0.0)
+            # distribution-based: within their accuracy, plus the stated bound of a Monte Carlo estimate
+            slack = 0.0 if exact else DISTRIBUTION_RTOL * unadjusted + P_FLOOR + (result.probability_error or 0.0)
             assert adjusted >= unadjusted - slack, (name, adjusted, unadjusted)
 
 
@@ -537,11 +519,7 @@ def test_identical_groups_give_no_difference(method) -> None:
     assert math.isfinite(row.statistic)
 
 
-@pytest.mark.xfail(strict=True, reason="Levene's test decides that it is undefined (equal absolute deviations "
-                   "within every group) by exact equality of rounded floats: for groups [0.1, 0.2] and [0.2, 0.4] "
-                   "the deviations from the median differ in the last bit, and it reports W = 1.3e31, p = 7.7e-32 "
-                   "from rounding noise, where the same data times 10 give 'unavailable'")
-def test_known_bug_levene_on_degenerate_spreads() -> None:
+def test_levene_is_unavailable_on_degenerate_spreads() -> None:
     """Minimal reproduction (also through POST /v1/omnibus, where the diagnostics then call the variances
     unequal 'Levene (median) p = 7.7e-32'). Expected: unavailable for both, as for the data times 10."""
     tenths = [[Decimal("0.1"), Decimal("0.2")], [Decimal("0.2"), Decimal("0.4")]]
@@ -551,12 +529,7 @@ def test_known_bug_levene_on_degenerate_spreads() -> None:
     assert not isinstance(omnibus(labelled(tenths)).levene, HypothesisTest)
 
 
-@pytest.mark.xfail(strict=True, reason="p-values from the studentized-range and many-to-one distribution code are "
-                   "not clipped to [0, 1]: three identical groups give Tukey-Kramer p = 1.0000000000000004 and "
-                   "step-down Dunnett p = 1.0000000000000007; six identical groups [0.00, 0.01] give Dunnett "
-                   "p = 1.00000000107343; five identical groups give multivariate-t (product correlation) "
-                   "contrast p = 1.0000000000264466")
-def test_known_bug_p_values_above_one() -> None:
+def test_p_values_never_exceed_one() -> None:
     """Minimal reproduction (the same numbers come back from POST /v1/followup/pairwise and /control)."""
     same = [Decimal("1"), Decimal("2"), Decimal("3")]
     data = labelled([same, list(same), list(same)])
@@ -569,10 +542,7 @@ def test_known_bug_p_values_above_one() -> None:
     assert all(0.0 <= p <= 1.0 for p in p_values), p_values
 
 
-@pytest.mark.xfail(strict=True, reason="Šidák's 1 - (1 - p)^m and Benjamini-Hochberg's p m / j are computed "
-                   "without a final max(adjusted, p): rounding leaves the adjusted p-value one unit in the last "
-                   "place below the unadjusted one (0.2224412382991578 < 0.22244123829915782)")
-def test_known_bug_adjusted_below_unadjusted() -> None:
+def test_adjusted_p_values_never_below_unadjusted_by_rounding() -> None:
     """Minimal reproductions, two groups for Šidák and three for Benjamini-Hochberg."""
     sidak = pairwise(labelled([[Decimal(v) for v in ("1.8", "7.2", "5.1")],
                                [Decimal(v) for v in ("8.1", "8.7", "5.4")]]), "sidak")
@@ -582,10 +552,7 @@ def test_known_bug_adjusted_below_unadjusted() -> None:
     assert all(r.p_value >= r.unadjusted_p_value for r in rows), [(r.p_value, r.unadjusted_p_value) for r in rows]
 
 
-@pytest.mark.xfail(strict=True, reason="one-sided Dunnett with one treatment: for a difference of exactly zero "
-                   "p = 0.4999999999999948 instead of 0.5, so at alpha = 0.5 the zero difference is declared "
-                   "significant and the interval [5e-324, inf) excludes its own estimate (critical value -5e-324)")
-def test_known_bug_one_sided_dunnett_at_alpha_one_half() -> None:
+def test_one_sided_dunnett_zero_difference_at_alpha_one_half() -> None:
     """Minimal reproduction (same through POST /v1/followup/control with alternative 'greater' and alpha 0.5)."""
     data = labelled([[Decimal("0.00"), Decimal("0.71")], [Decimal("0.00"), Decimal("0.71")]])
     row = versus_control(data, "group 1", "dunnett", "greater", 0.5).comparisons[0]

@@ -2,6 +2,7 @@
 
 from __future__ import annotations
 
+import asyncio
 import logging
 import threading
 from collections.abc import AsyncIterator
@@ -10,14 +11,13 @@ from importlib import resources
 
 from fastapi import FastAPI, Request
 from fastapi.exceptions import RequestValidationError
-from fastapi.middleware.cors import CORSMiddleware
 from fastapi.openapi.docs import get_swagger_ui_html
 from fastapi.responses import HTMLResponse
 from fastapi.staticfiles import StaticFiles
 from starlette.exceptions import HTTPException as StarletteHTTPException
 
 from familywise import __version__
-from familywise.api.middleware import RequestContext
+from familywise.api.middleware import ProblemCORSMiddleware, RequestContext
 from familywise.api.problems import CATALOGUE, ProblemError, validation_problem
 from familywise.api.settings import Settings
 from familywise.stats.errors import DataError
@@ -47,7 +47,7 @@ def _install_handlers(app: FastAPI) -> None:
 
     @app.exception_handler(RequestValidationError)
     async def on_validation(request: Request, exc: RequestValidationError):
-        return validation_problem(exc.errors()).response()
+        return validation_problem(exc.errors(), body=exc.body).response()
 
     @app.exception_handler(DataError)
     async def on_data(request: Request, exc: DataError):
@@ -117,8 +117,11 @@ def _start_warm_up(app: FastAPI) -> None:
 
 @asynccontextmanager
 async def _lifespan(app: FastAPI) -> AsyncIterator[None]:
+    from familywise.api.batch import shutdown_pool
+
     _start_warm_up(app)
     yield
+    await asyncio.to_thread(shutdown_pool)
 
 
 def _install_openapi(app: FastAPI) -> None:
@@ -164,12 +167,12 @@ def create_app(settings: Settings | None = None) -> FastAPI:
     for router in ROUTERS:
         app.include_router(router)
     _install_openapi(app)
-    if settings.cors_origins:
-        app.add_middleware(CORSMiddleware, allow_origins=list(settings.cors_origins),
-                           allow_methods=["GET", "POST"], allow_headers=["authorization", "content-type",
-                                                                        "x-request-id"],
-                           expose_headers=["x-request-id"])
     endpoints = frozenset(route.path for router in ROUTERS for route in router.routes)
     app.add_middleware(RequestContext, max_bytes=settings.max_body_bytes, api_keys=settings.api_keys,
                        endpoints=endpoints)
+    if settings.cors_origins:  # added last: the outermost layer (see ProblemCORSMiddleware)
+        app.add_middleware(ProblemCORSMiddleware, allow_origins=list(settings.cors_origins),
+                           allow_methods=["GET", "POST"], allow_headers=["authorization", "content-type",
+                                                                        "x-request-id"],
+                           expose_headers=["x-request-id"])
     return app

@@ -14,9 +14,13 @@ process hop would cost more than it saves.
 
 from __future__ import annotations
 
+import logging
 import os
+import signal
+import threading
 from collections.abc import Callable
 from concurrent.futures import ProcessPoolExecutor
+from concurrent.futures.process import BrokenProcessPool
 from typing import Any
 
 from pydantic import BaseModel, ValidationError
@@ -60,6 +64,8 @@ POOL_MIN_ITEMS = 64
 POOL_MIN_VALUES = 20_000
 _pool: ProcessPoolExecutor | None = None
 _pool_size = 0
+_pool_lock = threading.Lock()  # batches run in threads (under the time limit): one pool per process
+log = logging.getLogger("familywise")
 
 
 def run_item(index: int, item: dict[str, Any]) -> dict[str, Any]:
@@ -70,7 +76,7 @@ def run_item(index: int, item: dict[str, Any]) -> dict[str, Any]:
     try:
         return {"id": item["id"], "status": 200, "result": run(model.model_validate(item["request"]))}
     except ValidationError as exc:
-        problem = validation_problem(exc.errors(include_url=False), prefix)
+        problem = validation_problem(exc.errors(include_url=False), prefix, body=item["request"])
     except DataError as exc:
         problem = ProblemError("unanalysable-data", exc.message, pointer=prefix + exc.pointer, rule=exc.rule)
     except ProblemError as exc:
@@ -78,9 +84,7 @@ def run_item(index: int, item: dict[str, Any]) -> dict[str, Any]:
         if exc.pointer is not None:
             problem.pointer = prefix + exc.pointer
     except Exception:  # a bug: reported for this item only, never failing the batch
-        import logging
-
-        logging.getLogger("familywise").exception("batch item %s (%s) failed", item.get("id"), operation)
+        log.exception("batch item %s (%s) failed", item.get("id"), operation)
         problem = ProblemError("internal-error", "this item failed inside the service (a bug)")
     return {"id": item["id"], "status": problem.status, "problem": problem.document()}
 
@@ -100,13 +104,42 @@ def _workers(configured: int) -> int:
 
 def _executor(workers: int) -> ProcessPoolExecutor:
     global _pool, _pool_size
-    if _pool is None or _pool_size != workers:
-        _pool = ProcessPoolExecutor(max_workers=workers, initializer=_warm_worker)
-        _pool_size = workers
-    return _pool
+    with _pool_lock:
+        if _pool is None or _pool_size != workers:
+            if _pool is not None:
+                _pool.shutdown(wait=False, cancel_futures=True)
+            _pool = ProcessPoolExecutor(max_workers=workers, initializer=_start_worker)
+            _pool_size = workers
+        return _pool
 
 
-def _warm_worker() -> None:
+def _discard_pool(broken: ProcessPoolExecutor) -> None:
+    """Forget a pool whose process died (killed for memory, say), so that the
+    next large batch starts a new one."""
+    global _pool
+    with _pool_lock:
+        if _pool is broken:
+            _pool = None
+    broken.shutdown(wait=False, cancel_futures=True)
+
+
+def shutdown_pool() -> None:
+    """End the pool's processes (the service's shutdown calls this): they are
+    not the server's to leave behind."""
+    global _pool
+    with _pool_lock:
+        pool, _pool = _pool, None
+    if pool is not None:
+        pool.shutdown(wait=True, cancel_futures=True)
+
+
+def _start_worker() -> None:
+    # A pool process is forked from a server worker and inherits its signal
+    # handlers, which only ask the server to stop: restore the defaults so
+    # that SIGTERM ends it, and leave SIGINT (a Ctrl-C meant for the server)
+    # to the server, which shuts the pool down.
+    signal.signal(signal.SIGTERM, signal.SIG_DFL)
+    signal.signal(signal.SIGINT, signal.SIG_IGN)
     from familywise.stats.distributions import warm_up
 
     warm_up(6)
@@ -128,7 +161,10 @@ def run_batch(items: list[dict[str, Any]], configured_workers: int = 0) -> list[
         return _run_chunk(indexed)
     size = max(1, -(-len(indexed) // (4 * workers)))
     chunks = [indexed[i : i + size] for i in range(0, len(indexed), size)]
-    results: list[dict[str, Any]] = []
-    for part in _executor(workers).map(_run_chunk, chunks):
-        results.extend(part)
-    return results
+    pool = _executor(workers)
+    try:
+        return [row for part in pool.map(_run_chunk, chunks) for row in part]
+    except BrokenProcessPool:
+        log.error("a batch worker process died; this batch is computed in the server process")
+        _discard_pool(pool)
+        return _run_chunk(indexed)

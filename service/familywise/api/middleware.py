@@ -14,6 +14,10 @@ import time
 import uuid
 from typing import Any
 
+from starlette.datastructures import Headers
+from starlette.middleware.cors import CORSMiddleware
+from starlette.responses import Response
+
 from familywise.api import metrics
 from familywise.api.problems import ProblemError
 
@@ -148,3 +152,21 @@ async def _unauthorised(scope: Scope, send: Any) -> None:
 
 async def _drain() -> dict[str, Any]:
     return {"type": "http.disconnect"}
+
+
+class ProblemCORSMiddleware(CORSMiddleware):
+    """Starlette's CORS layer, refusing a preflight it does not allow with a
+    problem document (400, rule cors) like every other refusal, instead of
+    plain text. It is the outermost layer: a browser's preflight carries no
+    API key, and the answers to requests it lets through, 401 included,
+    carry its headers."""
+
+    def preflight_response(self, request_headers: Headers) -> Response:
+        response = super().preflight_response(request_headers)
+        if response.status_code < 400:
+            return response
+        kept = {k: v for k, v in response.headers.items() if k.lower() not in ("content-type", "content-length")}
+        reason = bytes(response.body).decode("utf-8", "replace")
+        problem = ProblemError("cors-refused", f"{reason}: this origin, method or header is not among those "
+                               "configured (FAMILYWISE_CORS_ORIGINS)", rule="cors", headers=kept)
+        return problem.response()

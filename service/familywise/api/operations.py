@@ -215,10 +215,16 @@ def run_plan(request) -> dict[str, Any]:
         if request.difference is not None or request.method is not None:
             raise DataError("contradiction", "difference and method are for follow-up families; set family",
                             "/family")
+        if request.alternative != "two_sided":
+            raise DataError("contradiction", "the omnibus F test has no one-sided alternative; the alternative "
+                            "is for the control family", "/alternative")
         if effect.cohens_f is None and effect.means is None:
             raise DataError("effect", "give Cohen's f, or the means and SD", "/effect")
         f = effect.cohens_f if effect.cohens_f is not None else cohens_f_from_means(effect.means, effect.sd)
         return plain(plan_omnibus(request.k, request.alpha, request.power, f))
+    if effect.cohens_f is not None:
+        raise DataError("contradiction", "a follow-up family is planned from the difference and the SD, not from "
+                        "Cohen's f", "/effect/cohens_f")
     if effect.sd is None:
         raise DataError("sd", "a follow-up family needs the within-group SD", "/effect/sd")
     difference = request.difference
@@ -226,5 +232,7 @@ def run_plan(request) -> dict[str, Any]:
         if effect.means is None:
             raise DataError("difference", "give the difference to detect (or the means)", "/difference")
         difference = max(effect.means) - min(effect.means)
+    elif effect.means is not None:
+        raise DataError("contradiction", "give the difference to detect or the means, not both", "/difference")
     return plain(plan_family(request.family, request.method, request.k, request.alpha, request.power,
                              difference, effect.sd, request.alternative))

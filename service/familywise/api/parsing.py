@@ -34,6 +34,16 @@ def _object_without_duplicates(pairs: list[tuple[str, Any]]) -> dict[str, Any]:
     return obj
 
 
+def _json_number(text: str) -> Decimal:
+    """A JSON number's exact value. An exponent beyond what decimal can hold
+    (1e99999999999999999999) becomes an infinity of its sign, which the
+    request models then refuse as not finite, naming the field."""
+    try:
+        return Decimal(text)
+    except InvalidOperation:
+        return Decimal("-Infinity" if text.startswith("-") else "Infinity")
+
+
 def _refuse_constant(name: str) -> Any:
     raise ValueError(f"{name} is not a JSON number")
 
@@ -62,6 +72,28 @@ def _depth_ok(text: str) -> bool:
     return True
 
 
+def _where_constant(text: str) -> str:
+    """'line L, column C' of the first NaN or Infinity literal outside strings."""
+    in_string = escaped = False
+    line, column = 1, 0
+    for i, ch in enumerate(text):
+        column += 1
+        if ch == "\n":
+            line, column = line + 1, 0
+        elif in_string:
+            if escaped:
+                escaped = False
+            elif ch == "\\":
+                escaped = True
+            elif ch == '"':
+                in_string = False
+        elif ch == '"':
+            in_string = True
+        elif text.startswith(("NaN", "Infinity"), i):
+            return f"line {line}, column {column}"
+    return "position unknown"
+
+
 def parse_json(raw: bytes) -> Any:
     """JSON text to Python, numbers as Decimal; ProblemError on any defect."""
     if not raw.strip():
@@ -76,8 +108,8 @@ def parse_json(raw: bytes) -> Any:
     try:
         return json.loads(
             text,
-            parse_float=Decimal,
-            parse_int=Decimal,
+            parse_float=_json_number,
+            parse_int=_json_number,
             parse_constant=_refuse_constant,
             object_pairs_hook=_object_without_duplicates,
         )
@@ -89,7 +121,8 @@ def parse_json(raw: bytes) -> Any:
                            f"invalid JSON: {exc.msg} (line {exc.lineno}, column {exc.colno})",
                            rule="json") from None
     except ValueError as exc:  # NaN / Infinity literals
-        raise ProblemError("malformed-body", str(exc), rule="json-number") from None
+        raise ProblemError("malformed-body", f"{exc} ({_where_constant(text)}); JSON has no such literals: "
+                           "leave the value out or send the group without it", rule="json-number") from None
     except RecursionError:
         raise ProblemError("malformed-body", f"JSON nests deeper than {MAX_DEPTH} levels",
                            rule="depth") from None

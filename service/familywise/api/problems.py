@@ -21,6 +21,9 @@ CATALOGUE: dict[str, tuple[int, str, str]] = {
     "malformed-body": (400, "Malformed request body",
                        "The body is not valid JSON or CSV, repeats a key, nests too deeply, or "
                        "uses a NaN or Infinity literal."),
+    "cors-refused": (400, "Cross-origin request not allowed",
+                     "A browser's preflight from an origin, or for a method or header, that the service "
+                     "is not configured to allow (FAMILYWISE_CORS_ORIGINS)."),
     "unauthorized": (401, "Missing or invalid API key",
                      "Send 'Authorization: Bearer <key>' with a key configured on the service."),
     "not-found": (404, "Not found", "No resource at this path."),
@@ -97,23 +100,69 @@ def pointer_from_location(location: tuple[Any, ...] | list[Any]) -> str:
     return "/" + "/".join(parts) if parts else ""
 
 
-def validation_problem(errors: list[dict[str, Any]], prefix: str = "") -> ProblemError:
+_MISSING = object()
+
+
+def _child(node: Any, key: Any) -> Any:
+    if isinstance(node, dict):
+        return node.get(key, _MISSING)
+    if isinstance(node, list) and isinstance(key, int) and 0 <= key < len(node):
+        return node[key]
+    return _MISSING
+
+
+def _union_member_step(location: list[Any], body: Any, error_type: str) -> tuple[int, Any] | None:
+    """Where pydantic put the name of a union's member in an error location
+    ("function-plain[_number()]", "RelativeMargin": a step that names nothing
+    in the body), with the value the caller sent there; None if no such step."""
+    node = body
+    for position, key in enumerate(location):
+        child = _child(node, key)
+        if child is _MISSING:
+            missing_field = position == len(location) - 1 and error_type == "missing"
+            if isinstance(key, str) and not missing_field:
+                return position, node
+            return None
+        node = child
+    return None
+
+
+#: pydantic's error types for "this member wanted an object"
+_OBJECT_EXPECTED = {"model_type", "dict_type", "model_attributes_type"}
+
+
+def validation_problem(errors: list[dict[str, Any]], prefix: str = "", body: Any = _MISSING) -> ProblemError:
     """The 422 problem for pydantic validation errors, one entry per field,
-    pointers relative to the request body (``prefix`` for a nested request)."""
+    pointers relative to the request body (``prefix`` for a nested request).
+
+    Given the ``body``, the pointers of a union field (a number or an object)
+    leave out pydantic's member names, and only the errors of the member that
+    fits what was sent are kept: the object member's for an object, the
+    other's for anything else.
+    """
     from familywise.api.schemas.common import ItemError
 
     entries = []
     for err in errors:
         location = list(err.get("loc", ()))
+        in_body = not location or location[0] not in ("query", "path", "header", "cookie")
         if location and location[0] == "body":
             location = location[1:]
+        error_type = err.get("type", "invalid")
+        step = _union_member_step(location, body, error_type) if in_body and isinstance(body, dict) else None
+        if step is not None:
+            position, sent = step
+            from_object_member = position < len(location) - 1 or error_type in _OBJECT_EXPECTED
+            if from_object_member != isinstance(sent, dict):
+                continue
+            del location[position]
         cause = (err.get("ctx") or {}).get("error")
         if isinstance(cause, ItemError):
             location.append(cause.index)
             message = str(cause)
         else:
             message = err.get("msg", "invalid value")
-        entries.append({"pointer": prefix + pointer_from_location(location), "rule": err.get("type", "invalid"),
+        entries.append({"pointer": prefix + pointer_from_location(location), "rule": error_type,
                         "detail": message})
     first = entries[0] if entries else {"pointer": prefix, "rule": "invalid", "detail": "invalid request"}
     detail = f"{first['pointer'] or 'the body'}: {first['detail']}"

@@ -121,7 +121,7 @@ class FamilywiseRoute(APIRoute):
                 validated = model.model_validate(obj)
             except ValidationError as exc:
                 raise RequestValidationError(
-                    [{**e, "loc": ("body", *e["loc"])} for e in exc.errors(include_url=False)]
+                    [{**e, "loc": ("body", *e["loc"])} for e in exc.errors(include_url=False)], body=obj
                 ) from None
             started = time.perf_counter()
             settings: Settings = request.app.state.settings
@@ -133,6 +133,14 @@ class FamilywiseRoute(APIRoute):
             return response
 
         return handler
+
+
+class OffloadedRoute(FamilywiseRoute):
+    """A route whose every request runs off the event loop under the time
+    limit: for work that is slow whatever the request's size (planning by
+    simulation)."""
+
+    offload = True
 
 
 #: Requests up to these sizes are computed inline (their cost is bounded well

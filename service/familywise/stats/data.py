@@ -14,7 +14,7 @@ from __future__ import annotations
 import math
 from collections.abc import Sequence
 from dataclasses import dataclass
-from decimal import Context, Decimal, localcontext
+from decimal import Context, Decimal, DecimalException, localcontext
 from functools import cached_property
 
 import numpy as np
@@ -34,6 +34,11 @@ _WIDE = Context(prec=60)
 #: Largest magnitude accepted for a value: squares and sums of squares of
 #: values this large still fit in double precision.
 MAX_MAGNITUDE = 1e150
+
+#: Smallest spread accepted: values that differ (from one another, or within
+#: the groups) by less than this have squared differences near or below the
+#: bottom of double precision, and sums of squares would underflow to zero.
+MIN_SPREAD = 1e-140
 
 
 @dataclass(frozen=True)
@@ -68,10 +73,15 @@ class OneWayData:
         centre = Decimal(groups[0][0])
         if not centre.is_finite():
             raise DataError("finite", "values must be finite numbers", "/groups/0/values/0")
-        with localcontext(_DECIMAL):
-            exact = tuple([v - centre for v in values] for values in groups)
+        try:
+            with localcontext(_DECIMAL):
+                exact = tuple([v - centre for v in values] for values in groups)
+        except DecimalException:
+            # An exponent beyond decimal's range: far outside the accepted magnitudes.
+            _refuse_magnitude(groups)
+            raise
         deviations = tuple(np.array(list(map(float, e))) for e in exact)
-        _check_values(deviations, float(centre))
+        _check_spread(_check_values(deviations, float(centre)))
         return cls(tuple(labels), deviations, float(centre), exact, centre)
 
     @classmethod
@@ -81,7 +91,9 @@ class OneWayData:
         _check_shape(labels, arrays)
         _check_values(arrays, 0.0)
         centre = float(arrays[0][0])
-        return cls(tuple(labels), tuple(a - centre for a in arrays), centre)
+        deviations = tuple(a - centre for a in arrays)
+        _check_spread(np.concatenate(deviations))
+        return cls(tuple(labels), deviations, centre)
 
     # -- shape --------------------------------------------------------------
 
@@ -111,6 +123,12 @@ class OneWayData:
 
     @cached_property
     def mean_deviations(self) -> np.ndarray:
+        """Each group's mean deviation from the centre: correctly rounded from
+        the exact decimals when there are any, so that a group whose values
+        are equal has exactly that value as its mean (and no spread)."""
+        exact = self.exact_mean_deviations
+        if exact is not None:
+            return np.array([float(m) for m in exact])
         return np.add.reduceat(self._pooled, self._starts) / self.sizes
 
     @cached_property
@@ -149,6 +167,20 @@ class OneWayData:
             return np.array([float(sum((Decimal(c) * m for c, m in zip(row, exact, strict=True)), Decimal(0)))
                              for row in np.asarray(matrix, dtype=float).tolist()])
 
+    def absolute_median_deviations(self) -> list[np.ndarray]:
+        """|x - median| within each group, from the exact decimals when there
+        are any (so that deviations equal in decimal are equal as floats)."""
+        if self.exact is None:
+            return [np.abs(d - np.median(d)) for d in self.deviations]
+        out = []
+        with localcontext(_WIDE):
+            for exact in self.exact:
+                ranked = sorted(exact)
+                n = len(ranked)
+                median = ranked[n // 2] if n % 2 else (ranked[n // 2 - 1] + ranked[n // 2]) / 2
+                out.append(np.array([float(abs(v - median)) for v in exact]))
+        return out
+
     @cached_property
     def exact_order(self) -> np.ndarray | None:
         """(k, 4) array of each group's mean, median, minimum and maximum from
@@ -169,9 +201,12 @@ class OneWayData:
 
     @cached_property
     def within_ss_by_group(self) -> np.ndarray:
-        """Two-pass centred sums of squares of each group."""
+        """Two-pass centred sums of squares of each group (exactly zero for a
+        group whose values are all equal, whatever the rounding of its mean)."""
         centred = self._pooled - np.repeat(self.mean_deviations, self.sizes.astype(np.intp))
-        return np.add.reduceat(centred * centred, self._starts)
+        ss = np.add.reduceat(centred * centred, self._starts)
+        constant = np.array([np.ptp(d) == 0.0 for d in self.deviations])
+        return np.where(constant, 0.0, ss)
 
     @cached_property
     def variances(self) -> np.ndarray:
@@ -214,6 +249,13 @@ class OneWayData:
         """Refuse designs whose pooled within-group variance is zero."""
         self.require_error_df()
         if not self.within_ss > 0.0:
+            if any(np.ptp(d) > 0.0 for d in self.deviations):
+                raise DataError(
+                    "spread",
+                    f"the values within the groups differ by less than about {MIN_SPREAD:g}: their squares "
+                    "leave double precision, so no variance can be computed; rescale the data (change the unit)",
+                    "/groups",
+                )
             raise DataError(
                 "zero-variance",
                 "every group is constant (zero within-group variance): standard errors and "
@@ -255,12 +297,35 @@ def _exact_order(exact: list[Decimal], floats: list[float], centre: Decimal) -> 
     return float(mean), float(median), float(centre + exact[ranked[0]]), float(centre + exact[ranked[-1]])
 
 
-def _check_values(arrays: Sequence[np.ndarray], centre: float) -> None:
+def _refuse_magnitude(groups: Sequence[Sequence[Decimal | int]]) -> None:
+    """Name the first decimal whose magnitude exceeds MAX_MAGNITUDE (if any)."""
+    limit = Decimal(repr(MAX_MAGNITUDE))
+    for g, values in enumerate(groups):
+        for i, value in enumerate(values):
+            if Decimal(value).copy_abs() > limit:  # copy_abs: no context, so no overflow
+                raise DataError("finite", f"values must be finite numbers within ±{MAX_MAGNITUDE:g}",
+                                f"/groups/{g}/values/{i}")
+
+
+def _check_spread(deviations: np.ndarray) -> None:
+    """Refuse data whose every difference is below MIN_SPREAD (``deviations``
+    from the first value, all groups: the largest is at least half the range)."""
+    spread = float(np.max(np.abs(deviations)))
+    if 0.0 < spread < MIN_SPREAD:
+        raise DataError("spread", f"the values differ from one another by less than {MIN_SPREAD:g}: their "
+                        "squared differences leave double precision; rescale the data (change the unit)",
+                        "/groups")
+
+
+def _check_values(arrays: Sequence[np.ndarray], centre: float) -> np.ndarray:
+    """Refuse non-finite values and magnitudes beyond MAX_MAGNITUDE; return all
+    the arrays as one."""
     everything = np.concatenate(arrays)
     if np.all(np.isfinite(everything)) and np.max(np.abs(everything + centre)) <= MAX_MAGNITUDE:
-        return
+        return everything
     for g, values in enumerate(arrays):
-        bad = np.flatnonzero(~np.isfinite(values) | (np.abs(values + centre) > MAX_MAGNITUDE))
+        with np.errstate(invalid="ignore", over="ignore"):
+            bad = np.flatnonzero(~np.isfinite(values) | (np.abs(values + centre) > MAX_MAGNITUDE))
         if bad.size:
             raise DataError(
                 "finite",

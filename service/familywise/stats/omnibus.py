@@ -195,18 +195,34 @@ def kruskal_wallis(data: OneWayData) -> HypothesisTest | Unavailable:
 
 def levene_median(data: OneWayData) -> HypothesisTest | Unavailable:
     """Levene's test on absolute deviations from group medians (Brown and
-    Forsythe 1974b), via scipy.stats.levene(center="median")."""
+    Forsythe 1974b): the one-way ANOVA F of z_ij = |x_ij - median_i| on
+    (k - 1, N - k) degrees of freedom, as scipy.stats.levene(center="median")
+    computes it.
+
+    The z_ij come from the exact decimals, so that deviations equal in
+    decimal arithmetic are equal as floats, and the group means of z are
+    exactly rounded sums (math.fsum): a degenerate design (equal z within
+    every group) is recognised as such, and equal means of z give F = 0 in
+    any order of groups and values, rather than a test of rounding noise.
+    """
     if np.any(data.sizes < 2):
         return Unavailable("every group needs at least two values")
-    spread = np.concatenate([np.abs(d - np.median(d)) for d in data.deviations])
-    if np.ptp(spread) == 0.0:
+    within = data.absolute_median_deviations()
+    if np.ptp(np.concatenate(within)) == 0.0:
         return Unavailable("the absolute deviations from the medians are all equal")
-    within = [np.abs(d - np.median(d)) for d in data.deviations]
     if all(np.ptp(z) == 0.0 for z in within):
         return Unavailable("within every group the absolute deviations from the median are equal")
-    statistic, p = stats.levene(*data.deviations, center="median")
-    return _checked(HypothesisTest(float(statistic), data.k - 1.0, float(data.df_within), float(p)),
-                    "Levene's test")
+    means = np.array([math.fsum(z) / z.size for z in within])
+    within_ss = math.fsum(math.fsum((z - m) ** 2) for z, m in zip(within, means, strict=True))
+    df_between, df_within = data.k - 1.0, float(data.df_within)
+    if np.ptp(means) == 0.0:
+        statistic = 0.0
+    else:
+        grand = math.fsum(math.fsum(z) for z in within) / data.n_total
+        between_ss = math.fsum(z.size * (m - grand) ** 2 for z, m in zip(within, means, strict=True))
+        statistic = (between_ss / df_between) / (within_ss / df_within)
+    p = float(stats.f.sf(statistic, df_between, df_within))
+    return _checked(HypothesisTest(float(statistic), df_between, df_within, p), "Levene's test")
 
 
 def shapiro_wilk_residuals(data: OneWayData) -> HypothesisTest | Unavailable:
@@ -241,18 +257,36 @@ def effect_sizes(data: OneWayData, table: AnovaTable, alpha: float) -> EffectSiz
 
 def _noncentrality_interval(f: float, df1: int, df2: int, alpha: float) -> tuple[float, float]:
     """Noncentrality parameters whose noncentral F puts the observed F at the
-    1 - alpha/2 and alpha/2 quantiles (0 when the central F already does)."""
+    1 - alpha/2 and alpha/2 quantiles (0 when the central F already does).
+
+    Where scipy's noncentral F gives no number (noncentrality beyond about
+    1e10, that is F beyond about 1e9), the limit for large noncentrality is
+    used: chi'^2(df1, lam) / lam -> 1, so F -> (lam / df1) / (chi^2_df2 / df2)
+    and lam = F df1 chi^2_{df2; q} / df2 (q the lower alpha/2 quantile for the
+    lower end, the upper one for the upper end); its relative error is of
+    order sqrt(2 / lam), below 1e-5 there.
+    """
 
     def cdf_minus(target: float):
         return lambda lam: stats.ncf.cdf(f, df1, df2, lam) - target
+
+    def asymptotic(target: float) -> float:
+        return float(f * df1 * stats.chi2.isf(target, df2) / df2)
 
     def solve(target: float) -> float:
         if stats.f.cdf(f, df1, df2) <= target:
             return 0.0
         hi = max(10.0, 2.0 * f * df1)
-        while cdf_minus(target)(hi) > 0.0:
+        gap = cdf_minus(target)(hi)
+        while gap > 0.0:
             hi *= 2.0
-        return float(optimize.brentq(cdf_minus(target), 0.0, hi, xtol=1e-10, rtol=1e-12))
+            gap = cdf_minus(target)(hi)
+        if not (math.isfinite(gap) and math.isfinite(cdf_minus(target)(0.0))):
+            return asymptotic(target)
+        try:
+            return float(optimize.brentq(cdf_minus(target), 0.0, hi, xtol=1e-10, rtol=1e-12))
+        except ValueError:  # a NaN met inside the bracket
+            return asymptotic(target)
 
     return solve(1.0 - alpha / 2.0), solve(alpha / 2.0)
 
@@ -266,19 +300,27 @@ def diagnostics(
 ) -> Diagnostics:
     """Variance ratio, balance, and what each finding means for the follow-up."""
     var = data.variances[data.sizes > 1]
+    ratio: float | None = None
+    beyond_range = False
     if var.size >= 2 and var.min() > 0.0:
-        ratio: float | None = float(var.max() / var.min())
-    else:
-        ratio = None
+        with np.errstate(over="ignore"):
+            ratio = float(var.max() / var.min())
+        if not math.isfinite(ratio):
+            ratio, beyond_range = None, True
     sizes = data.sizes
     balanced = bool(np.all(sizes == sizes[0]))
     size_ratio = float(sizes.max() / sizes.min())
     notes: list[str] = []
-    unequal = (ratio is not None and ratio > MARKED_VARIANCE_RATIO) or (
+    unequal = beyond_range or (ratio is not None and ratio > MARKED_VARIANCE_RATIO) or (
         isinstance(levene, HypothesisTest) and levene.p_value < alpha
     )
     if unequal:
-        described = f"largest/smallest variance {ratio:.3g}" if ratio is not None else "a zero variance"
+        if ratio is not None:
+            described = f"largest/smallest variance {ratio:.3g}"
+        elif beyond_range:
+            described = "largest/smallest variance beyond double range"
+        else:
+            described = "a zero variance"
         levene_text = (
             f", Levene (median) p = {levene.p_value:.3g}" if isinstance(levene, HypothesisTest) else ""
         )

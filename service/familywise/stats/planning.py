@@ -42,6 +42,13 @@ FAMILY_METHODS = {"pairwise": ("tukey_kramer",), "control": ("dunnett",), "best"
 SIMULATION_REPLICATES = 20_000
 SEED = 20261201
 MAX_PER_GROUP = 100_000
+#: Most groups planned for: beyond it the families' critical values leave the
+#: distribution code's validated range, and the simulation of Hsu's MCB
+#: (replicates x k normal draws) grows too large to answer in time.
+MAX_GROUPS = 100
+#: Largest Cohen's f planned for (a difference of a hundred SDs is found with
+#: two replicates per group; beyond it the noncentral F leaves double range).
+MAX_COHENS_F = 100.0
 ROUNDING = ("n_per_group is the smallest whole number of replicates per group that reaches the target "
             "power; total_n = k x n_per_group; achieved_power is the power at that n (never below the target).")
 
@@ -67,8 +74,14 @@ class Plan:
 
 def cohens_f_from_means(means: Sequence[float], sd: float) -> float:
     """f = sqrt(mean((mu_i - mu_bar)^2)) / sigma (Cohen 1988, eq. 8.2.1, equal n)."""
+    if not sd > 0:
+        raise DataError("sd", "the standard deviation must be positive", "/effect/sd")
     mu = np.asarray(means, dtype=float)
-    return float(np.sqrt(np.mean((mu - mu.mean()) ** 2)) / sd)
+    with np.errstate(over="ignore", invalid="ignore"):
+        f = float(np.sqrt(np.mean((mu - mu.mean()) ** 2)) / sd)
+    if not math.isfinite(f):
+        raise DataError("effect", "Cohen's f from these means and SD leaves double precision", "/effect")
+    return f
 
 
 def omnibus_power(f: float, k: int, total_n: float, alpha: float) -> float:
@@ -82,14 +95,26 @@ def plan_omnibus(k: int, alpha: float, power: float, f: float) -> Plan:
     _check(k, alpha, power)
     if not f > 0:
         raise DataError("effect", "the effect size must be positive", "/effect")
+    if not f <= MAX_COHENS_F:
+        raise DataError("effect", f"Cohen's f must be at most {MAX_COHENS_F:g} (an effect this large is found "
+                        "with two replicates per group)", "/effect")
     lo, hi = k + 1.0, float(k + 2)
+    if omnibus_power(f, k, lo, alpha) >= power:
+        hi = lo  # one error df is already enough: the smallest design, two per group, is the answer
     while omnibus_power(f, k, hi, alpha) < power:
         lo, hi = hi, hi * 2.0
         if hi > k * MAX_PER_GROUP:
             raise DataError("effect", "the effect is too small to reach the power with a sane sample size",
                             "/effect")
-    unrounded = float(optimize.brentq(lambda n: omnibus_power(f, k, n, alpha) - power, lo, hi, xtol=1e-10))
-    n = max(2, math.ceil(unrounded / k))
+    note = "Power of the omnibus F test from the noncentral F (lambda = f^2 N); exact."
+    unrounded: float | None
+    if hi == lo:
+        unrounded = None
+        note += (" The target is reached with a single error degree of freedom (N = k + 1): the smallest "
+                 "design, two replicates per group, is the answer, and there is no continuous solution.")
+    else:
+        unrounded = float(optimize.brentq(lambda n: omnibus_power(f, k, n, alpha) - power, lo, hi, xtol=1e-10))
+    n = max(2, math.ceil((unrounded or 0.0) / k))
     while omnibus_power(f, k, k * n, alpha) < power:
         n += 1
     while n > 2 and omnibus_power(f, k, k * (n - 1), alpha) >= power:
@@ -97,8 +122,7 @@ def plan_omnibus(k: int, alpha: float, power: float, f: float) -> Plan:
     return Plan(
         target="omnibus", method="anova_f", k=k, alpha=alpha, power=power, n_per_group=n, total_n=k * n,
         achieved_power=omnibus_power(f, k, k * n, alpha), cohens_f=f, difference=None, sd=None,
-        unrounded_total_n=unrounded, power_standard_error=None,
-        method_note="Power of the omnibus F test from the noncentral F (lambda = f^2 N); exact.",
+        unrounded_total_n=unrounded, power_standard_error=None, method_note=note,
     )
 
 
@@ -119,11 +143,20 @@ def family_power(family: str, k: int, n: int, alpha: float, delta: float, sd: fl
 
 
 def _t_power(critical: float, nu: float, ncp: float, alternative: str) -> float:
+    """Power of a t test with critical value c whose statistic is noncentral t
+    with noncentrality ncp >= 0 in the direction of the alternative: P(T' > c)
+    one-sided (for "less", the statistic's sign is turned, so that the given
+    difference is a shortfall below the control), P(|T'| > c) two-sided. The
+    lower tail P(T' < -c) is taken as P(-T' > c): scipy's nct.cdf far in the
+    lower tail returns NaN at large df."""
+    power = float(stats.nct.sf(critical, nu, ncp))
     if alternative == "two_sided":
-        return float(stats.nct.sf(critical, nu, ncp) + stats.nct.cdf(-critical, nu, ncp))
-    if alternative == "greater":
-        return float(stats.nct.sf(critical, nu, ncp))
-    return float(stats.nct.cdf(-critical, nu, ncp))
+        power += float(stats.nct.sf(critical, nu, -ncp))
+    if not math.isfinite(power):
+        raise DataError("difference", "the power cannot be computed for this difference and SD (the "
+                        "noncentral t leaves double precision); use a smaller difference or a larger SD",
+                        "/difference")
+    return min(power, 1.0)
 
 
 def _mcb_power(k: int, n: int, alpha: float, delta: float, sd: float) -> tuple[float, float]:
@@ -196,6 +229,8 @@ def plan_family(family: str, method: str | None, k: int, alpha: float, power: fl
 def _check(k: int, alpha: float, power: float) -> None:
     if k < 2:
         raise DataError("k", "at least two groups are needed", "/k")
+    if k > MAX_GROUPS:
+        raise DataError("k", f"planning covers at most {MAX_GROUPS} groups", "/k")
     if not 0.0 < alpha <= 0.5:
         raise DataError("alpha", "alpha must lie in (0, 0.5]", "/alpha")
     if not alpha < power < 1.0:

@@ -8,6 +8,7 @@ ROUTERS = [
     contrasts.router,
     families.router,
     guidance.router,
+    guidance.planning_router,
     batch.router,
     figures.router,
 ]

@@ -7,7 +7,7 @@ from typing import Annotated
 from fastapi import APIRouter, Body, Response
 
 from familywise.api import examples, operations
-from familywise.api.routing import ACCEPTS_CSV, FamilywiseRoute, json_response
+from familywise.api.routing import ACCEPTS_CSV, FamilywiseRoute, OffloadedRoute, json_response
 from familywise.api.schemas.guidance import (
     AnalysisRequest,
     AnalysisResponse,
@@ -19,6 +19,8 @@ from familywise.api.schemas.guidance import (
 from familywise.api.schemas.problem import STANDARD_REFUSALS
 
 router = APIRouter(route_class=FamilywiseRoute, tags=["guidance"])
+#: Planning a family may simulate (Hsu's MCB): off the event loop, under the time limit.
+planning_router = APIRouter(route_class=OffloadedRoute, tags=["guidance"])
 
 
 @router.post(
@@ -65,7 +67,7 @@ async def analysis_endpoint(
     return json_response(operations.with_provenance(operations.run_analysis(request), request))
 
 
-@router.post(
+@planning_router.post(
     "/v1/plan",
     response_model=PlanResponse,
     summary="Sample size and power for the next experiment",

@@ -68,17 +68,32 @@ def _number(raw: Any) -> float:
     return value
 
 
+#: Whole numbers beyond this are refused before they are converted: every
+#: count in a request (groups, sizes, items) is far smaller, and the
+#: conversion of 1e999999999 to an int would take minutes and gigabytes.
+MAX_INTEGER = 2**53
+
+
 def _integer(raw: Any) -> int:
     d = _as_decimal(raw)
-    if d is None or d != d.to_integral_value():
+    if d is None or (d.adjusted() < 20 and d != d.to_integral_value()):
         raise PydanticCustomError("int_type", "must be a whole JSON number")
+    if d.adjusted() > 15 or abs(d) > MAX_INTEGER:
+        raise PydanticCustomError("int_range", "must be a whole number of magnitude at most {limit}",
+                                  {"limit": MAX_INTEGER})
     return int(d)
+
+
+#: Smallest alpha accepted: no laboratory decision is taken at a smaller
+#: error rate, and the quantiles of the intervals leave double precision
+#: as alpha approaches the smallest double.
+MIN_ALPHA = 1e-10
 
 
 def _alpha(raw: Any) -> float:
     value = _number(raw)
-    if not 0.0 < value <= 0.5:
-        raise PydanticCustomError("alpha_range", "alpha must lie in (0, 0.5]")
+    if not MIN_ALPHA <= value <= 0.5:
+        raise PydanticCustomError("alpha_range", "alpha must lie in [{low}, 0.5]", {"low": MIN_ALPHA})
     return value
 
 
@@ -93,8 +108,8 @@ Alpha = Annotated[
     float,
     PlainValidator(_alpha),
     WithJsonSchema(
-        {"type": "number", "exclusiveMinimum": 0, "maximum": 0.5, "default": 0.05,
-         "description": "Error rate of the family (or level of each test): 0 < alpha <= 0.5."}
+        {"type": "number", "minimum": MIN_ALPHA, "maximum": 0.5, "default": 0.05,
+         "description": "Error rate of the family (or level of each test): 1e-10 <= alpha <= 0.5."}
     ),
 ]
 Label = Annotated[str, Field(min_length=1, max_length=MAX_LABEL_LENGTH)]

@@ -18,6 +18,7 @@ from familywise.api.schemas.common import (
     Strict,
     response_model,
 )
+from familywise.api.schemas.contrasts import GroupSize
 from familywise.api.schemas.families import (
     Alternative,
     Contrast,
@@ -51,7 +52,7 @@ class Question(Strict):
 class RecommendationRequest(Strict):
     question: Question
     groups: list[Group] | None = Field(None, min_length=2, description="The data, if already measured.")
-    sizes: dict[Label, Integer] | None = Field(
+    sizes: dict[Label, GroupSize] | None = Field(
         None, description="Group sizes (label -> n) when the data are not given (contrast orthogonality).")
     alpha: Alpha = 0.05
 
@@ -137,7 +138,9 @@ class PlanRequest(Strict):
         "omnibus", description="Plan for the omnibus F test or for a follow-up family.")
     method: Literal["tukey_kramer", "dunnett", "hsu_mcb"] | None = Field(
         None, description="The family's method (the default of the family when omitted).")
-    difference: Number | None = Field(None, description="Family: the true difference to detect.")
+    difference: Number | None = Field(
+        None, description="Family: the size of the true difference to detect (positive; for a one-sided "
+                          "comparison with a control, in the direction of the alternative).")
     alternative: Alternative = Field("two_sided", description="Family control: one- or two-sided.")
 
 

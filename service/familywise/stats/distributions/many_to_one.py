@@ -19,7 +19,9 @@ normals, the p-variate probability conditional on Z0 is a product, so that
     P(max |Y_i| <= w) = integral phi(z) prod_i [Phi((w - lam_i z) / tau_i)
                                                 - Phi((-w - lam_i z) / tau_i)] dz,
 
-tau_i = sqrt(1 - lam_i^2) (one-sided: drop the second term). The integral is
+tau_i = sqrt(1 - lam_i^2) (one-sided: drop the second term). A single
+comparison is Student's t itself, taken from scipy.special.stdtr/stdtrit
+(exactly 1/2 at c = 0 one-sided, which the quadrature would miss by ulps). The integral is
 evaluated by Gauss-Hermite quadrature (adaptive Gauss-Kronrod when some
 |lam_i| > 0.9), the upper tail P(max > w) in logarithms; the finite-nu
 probability mixes over s exactly as for the studentized range (see
@@ -38,6 +40,7 @@ import math
 
 import numpy as np
 from numpy.typing import ArrayLike
+from scipy import special
 
 from familywise.stats.distributions import _kernels as kernels
 from familywise.stats.distributions._tables import TabulatedDistribution, max_table, mixture_curve
@@ -77,14 +80,30 @@ def _log_tails(c: ArrayLike, lambdas: ArrayLike, df: ArrayLike, alternative: str
     c, df = np.broadcast_arrays(np.asarray(c, dtype=float), _validate_df(df))
     shape = c.shape
     flat = np.ascontiguousarray(c, dtype=float).ravel()
+    flat_df = np.ascontiguousarray(df, dtype=float).ravel()
     if np.any(np.isnan(flat)):
         raise ValueError("c must not be NaN")
     if alternative == "two_sided":
         flat = np.maximum(flat, 0.0)
-    upper, lower = kernels.mixture_log_sf_many(
-        table, flat, np.ascontiguousarray(df, dtype=float).ravel(), median
-    )
-    return upper.reshape(shape), lower.reshape(shape)
+    upper, lower = kernels.mixture_log_sf_many(table, flat, flat_df, median)
+    if np.size(lambdas) == 1:
+        upper, lower = _student_log_tails(flat, flat_df, alternative == "two_sided", upper, lower)
+    # Quadrature rounding may leave a log-probability a few ulps above 0.
+    return np.minimum(upper, 0.0).reshape(shape), np.minimum(lower, 0.0).reshape(shape)
+
+
+def _student_log_tails(c: np.ndarray, df: np.ndarray, two_sided: bool, upper: np.ndarray,
+                       lower: np.ndarray) -> tuple[np.ndarray, np.ndarray]:
+    """log P(|T| > c) or log P(T > c) and their complements for Student's t,
+    keeping the quadrature's values where the tail leaves double range."""
+    tail = special.stdtr(df, -np.abs(c) if two_sided else -c)
+    body = special.stdtr(df, c)
+    p_upper = 2.0 * tail if two_sided else tail
+    p_lower = 1.0 - 2.0 * tail if two_sided else body
+    with np.errstate(divide="ignore"):
+        exact_upper = np.where(p_upper > 1e-300, np.log(p_upper), upper)
+        exact_lower = np.where(p_lower > 1e-300, np.log(p_lower), lower)
+    return exact_upper, exact_lower
 
 
 def many_to_one_logsf(c: ArrayLike, lambdas: ArrayLike, df: ArrayLike, alternative: str = "two_sided") -> np.ndarray:
@@ -110,7 +129,13 @@ def many_to_one_isf(
         raise ValueError("alpha must lie in (0, 0.5]")
     df = float(_validate_df(df))
     table, median = _table(lambdas, alternative)
+    if np.size(lambdas) == 1:
+        return _student_isf(alpha, df, alternative == "two_sided")
     return float(kernels.mixture_quantile(table, math.log(alpha), df, median, 40.0))
+
+
+def _student_isf(alpha: float, df: float, two_sided: bool) -> float:
+    return float(-special.stdtrit(df, alpha / 2.0 if two_sided else alpha))
 
 
 def many_to_one_curve(lambdas: ArrayLike, df: float, alternative: str = "two_sided") -> TabulatedDistribution:
@@ -123,4 +148,36 @@ def many_to_one_curve(lambdas: ArrayLike, df: float, alternative: str = "two_sid
         lam = np.abs(lam)
     distinct, counts = np.unique(lam, return_counts=True)
     key = ("max", *_key(distinct, counts, alternative == "two_sided"))
-    return TabulatedDistribution(table, median, mixture_curve(key, df), df)
+    curve = TabulatedDistribution(table, median, mixture_curve(key, df), df)
+    if lam.size == 1:
+        return _SingleComparison(curve, alternative == "two_sided")
+    return curve
+
+
+class _SingleComparison:
+    """The curve interface for one comparison: Student's t (see the module docstring)."""
+
+    def __init__(self, curve: TabulatedDistribution, two_sided: bool) -> None:
+        self._curve = curve
+        self._two_sided = two_sided
+        self.df = curve.df
+
+    def logsf(self, c: np.ndarray) -> np.ndarray:
+        c = np.ascontiguousarray(np.atleast_1d(c), dtype=float)
+        if self._two_sided:
+            c = np.maximum(c, 0.0)
+        tail = special.stdtr(self.df, -np.abs(c) if self._two_sided else -c)
+        p = 2.0 * tail if self._two_sided else tail
+        out = np.log(np.maximum(p, 1e-300))
+        beyond = p <= 1e-300
+        if np.any(beyond):
+            out[beyond] = self._curve.logsf(c[beyond])
+        return out
+
+    def sf(self, c: np.ndarray) -> np.ndarray:
+        return np.exp(self.logsf(c))
+
+    def isf(self, alpha: float) -> float:
+        if not 0.0 < alpha <= 0.5:
+            raise ValueError("alpha must lie in (0, 0.5]")
+        return _student_isf(alpha, self.df, self._two_sided)

@@ -78,7 +78,7 @@ class MaxAbsT:
     def sf(self, c: ArrayLike) -> tuple[np.ndarray, float]:
         """P(max |T_i| > c) for each c, and the largest error bound."""
         values, error = self.cdf(c)
-        return 1.0 - values, error
+        return np.clip(1.0 - values, 0.0, 1.0), error
 
     def isf(self, alpha: float) -> float:
         """c with P(max |T_i| > c) = alpha on these points, by secant steps from

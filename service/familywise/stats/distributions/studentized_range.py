@@ -63,7 +63,8 @@ def _log_tails(q: ArrayLike, k: int, df: ArrayLike) -> tuple[np.ndarray, np.ndar
     upper, lower = kernels.mixture_log_sf_many(
         table, flat_q, np.ascontiguousarray(df, dtype=float).ravel(), median
     )
-    return upper.reshape(shape), lower.reshape(shape)
+    # Quadrature rounding may leave a log-probability a few ulps above 0.
+    return np.minimum(upper, 0.0).reshape(shape), np.minimum(lower, 0.0).reshape(shape)
 
 
 def studentized_range_sf(q: ArrayLike, k: int, df: ArrayLike) -> np.ndarray:

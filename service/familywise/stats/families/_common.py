@@ -127,8 +127,10 @@ def bonferroni(p: np.ndarray) -> np.ndarray:
 
 
 def sidak(p: np.ndarray) -> np.ndarray:
-    """1 - (1 - p)^m, computed without cancellation for small p."""
-    return -np.expm1(p.size * np.log1p(-np.minimum(p, 1.0)))
+    """1 - (1 - p)^m, computed without cancellation for small p (and never
+    below p, which rounding alone could otherwise leave it)."""
+    with np.errstate(divide="ignore"):  # p = 1: log1p(-1) = -inf, and the result is exactly 1
+        return np.maximum(p, -np.expm1(p.size * np.log1p(-np.minimum(p, 1.0))))
 
 
 def holm(p: np.ndarray) -> np.ndarray:
@@ -148,7 +150,8 @@ def benjamini_hochberg(p: np.ndarray) -> np.ndarray:
     stepped = p[order] * m / np.arange(1, m + 1)
     out = np.empty(m)
     out[order] = np.minimum(1.0, np.minimum.accumulate(stepped[::-1])[::-1])
-    return out
+    # p m / j >= p in exact arithmetic; rounding must not take it below p.
+    return np.maximum(out, p)
 
 
 ADJUSTMENTS = {

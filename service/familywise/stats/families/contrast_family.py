@@ -70,11 +70,17 @@ def contrast_family(
     s, df = pooled(data)
     c = np.asarray(matrix, dtype=float)
     m = c.shape[0]
-    estimate = data.contrast_estimates(c)
-    factor = np.sqrt(np.sum(c * c / data.sizes, axis=1))
-    se = s * factor
-    t = estimate / se
-    ss = estimate**2 / factor**2
+    # Each row is computed scaled by a power of two near its largest |c_i|
+    # (exact), so that coefficients of any magnitude neither underflow nor
+    # overflow in sum c_i^2 / n_i; t, p, SS and F do not depend on the scale.
+    scale = np.exp2(np.floor(np.log2(np.max(np.abs(c), axis=1))))[:, None]
+    unit = c / scale
+    unit_estimate = data.contrast_estimates(unit)
+    unit_factor = np.sqrt(np.sum(unit * unit / data.sizes, axis=1))
+    estimate = unit_estimate * scale[:, 0]
+    se = s * unit_factor * scale[:, 0]
+    t = unit_estimate / (s * unit_factor)
+    ss = unit_estimate**2 / unit_factor**2
     f = ss / data.pooled_variance
     raw = 2.0 * stats.t.sf(np.abs(t), df)
     notes: list[str] = []
@@ -98,7 +104,7 @@ def contrast_family(
         notes.append("Scheffé's intervals hold simultaneously for every contrast, including those "
                      "chosen after looking at the data.")
     else:
-        p, critical, probability_error, how = _multivariate_t(c, data.sizes, factor, np.abs(t), df, alpha)
+        p, critical, probability_error, how = _multivariate_t(unit, data.sizes, np.abs(t), df, alpha)
         notes.append(how)
     if critical is not None:
         critical = agreeing_critical_value(critical, np.abs(t), p, alpha)
@@ -138,7 +144,7 @@ def contrast_correlation(matrix: np.ndarray, sizes: np.ndarray) -> np.ndarray:
     return cov / np.outer(scale, scale)
 
 
-def _multivariate_t(matrix, sizes, factor, abs_t, df, alpha):
+def _multivariate_t(matrix, sizes, abs_t, df, alpha):
     m = matrix.shape[0]
     if m > 1 and np.linalg.matrix_rank(matrix / np.sqrt(sizes)) < m:
         raise DataError("rank", "the contrasts are linearly dependent: their correlation matrix is "
