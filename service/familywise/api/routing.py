@@ -148,6 +148,9 @@ class OffloadedRoute(FamilywiseRoute):
 INLINE_GROUPS = 40
 INLINE_VALUES = 20_000
 INLINE_CONTRASTS = 40
+#: A general multivariate t by quasi-Monte Carlo costs milliseconds for a few
+#: contrasts and seconds for a few dozen: beyond this many, off the event loop.
+INLINE_MULTIVARIATE_T = 8
 
 
 def is_large(obj: Any, settings: Settings) -> bool:
@@ -158,7 +161,8 @@ def is_large(obj: Any, settings: Settings) -> bool:
     if isinstance(groups, list) and (len(groups) > INLINE_GROUPS or _count_values(groups) > INLINE_VALUES):
         return True
     contrasts = obj.get("contrasts")
-    if isinstance(contrasts, list) and len(contrasts) > INLINE_CONTRASTS:
+    if isinstance(contrasts, list) and (len(contrasts) > INLINE_CONTRASTS or (
+            obj.get("adjustment") == "multivariate_t" and len(contrasts) > INLINE_MULTIVARIATE_T)):
         return True
     standard = obj.get("standard")
     if isinstance(standard, dict) and isinstance(obj.get("sizes"), dict) and len(obj["sizes"]) > INLINE_GROUPS:

@@ -37,14 +37,91 @@ import math
 import numpy as np
 from numba import njit
 
-from familywise.stats.distributions._numerics import (
-    LOG_SQRT_2PI,
-    cheb_panel,
-    find_panel,
-    log_ndtr,
-    log_normal_pdf,
-    ndtr,
-)
+# --------------------------------------------------------------------------
+# Scalar helpers: normal distribution functions, piecewise Chebyshev series
+# --------------------------------------------------------------------------
+# (Kept in this module: numba's on-disk cache is keyed on the defining file of
+# each compiled function, so helpers inlined from another module could leave a
+# stale compiled kernel behind when only they change.)
+
+LOG_SQRT_2PI = 0.5 * math.log(2.0 * math.pi)
+SQRT_HALF = math.sqrt(0.5)
+
+
+@njit(cache=True, inline="always")
+def log_ndtr(x: float) -> float:
+    """log Phi(x), relative-accurate over the whole real line (for x > 0 from
+    the upper tail, log1p(-Phi(-x)), so that the small logarithm of a Phi
+    close to 1 keeps its relative accuracy)."""
+    if x > 0.0:
+        return math.log1p(-0.5 * math.erfc(x * SQRT_HALF))
+    if x > -37.0:
+        return math.log(0.5 * math.erfc(-x * SQRT_HALF))
+    # Asymptotic series (A&S 26.2.12): Phi(x) ~ phi(x)/|x| * (1 - 1/x^2 + 3/x^4 - ...)
+    x2 = x * x
+    series = 1.0 - 1.0 / x2 + 3.0 / (x2 * x2) - 15.0 / (x2 * x2 * x2) + 105.0 / (x2 * x2 * x2 * x2)
+    return -0.5 * x2 - LOG_SQRT_2PI - math.log(-x) + math.log(series)
+
+
+@njit(cache=True, inline="always")
+def ndtr(x: float) -> float:
+    """Phi(x)."""
+    return 0.5 * math.erfc(-x * SQRT_HALF)
+
+
+@njit(cache=True, inline="always")
+def log_normal_pdf(z: float) -> float:
+    return -0.5 * z * z - LOG_SQRT_2PI
+
+
+
+@njit(cache=True, inline="always")
+def find_panel(edges, x):
+    """Index j with edges[j] <= x < edges[j + 1], clamped to the table."""
+    n_panels = edges.size - 1
+    if x <= edges[0]:
+        return 0
+    if x >= edges[n_panels]:
+        return n_panels - 1
+    lo = 0
+    hi = n_panels
+    while hi - lo > 1:
+        m = (lo + hi) // 2
+        if edges[m] <= x:
+            lo = m
+        else:
+            hi = m
+    return lo
+
+
+@njit(cache=True, inline="always")
+def cheb_panel(edges, coef, j, x):
+    """Chebyshev series of panel j at x (Clenshaw recurrence)."""
+    a = edges[j]
+    b = edges[j + 1]
+    u = (2.0 * x - (a + b)) / (b - a)
+    u2 = 2.0 * u
+    b1 = 0.0
+    b2 = 0.0
+    for i in range(coef.shape[1] - 1, 0, -1):
+        b1, b2 = coef[j, i] + u2 * b1 - b2, b1
+    return coef[j, 0] + u * b1 - b2
+
+
+@njit(cache=True)
+def cheb_eval(edges, coef, x):
+    """Piecewise Chebyshev series at x, with x clamped to the table's span."""
+    return cheb_panel(edges, coef, find_panel(edges, x), x)
+
+
+def chebyshev_fit_matrix(n: int) -> tuple[np.ndarray, np.ndarray]:
+    """Chebyshev points of the first kind on [-1, 1] and the matrix that maps
+    values at those points to series coefficients."""
+    j = np.arange(n)
+    x = np.cos(np.pi * (j + 0.5) / n)
+    vander = np.polynomial.chebyshev.chebvander(x, n - 1)
+    return x, np.linalg.inv(vander)
+
 
 KIND_RANGE = 0
 KIND_MAX_ABS = 1  # two-sided many-to-one: max_i |Y_i|
@@ -102,9 +179,16 @@ CENTRED_RATIO = tuple(
 )
 
 
-# A table is a tuple (edges, coef, kind, params, tail_scale): the piecewise
-# Chebyshev series of L(w) on [edges[0], edges[-1]], and how to continue it.
-_NO_TABLE = (np.zeros(2), np.zeros((1, 1)), 0, np.zeros(1), 1.0)
+# A table is a tuple (edges, coef, kind, params, tail_scale, done, fit, nodes):
+# the piecewise Chebyshev series of L(w) on [edges[0], edges[-1]], how to
+# continue it beyond, which panels are filled (the far upper tail is filled
+# on first use), and the Chebyshev points and fitting matrix that fill a panel.
+@njit(cache=True)
+def _no_table():
+    """A placeholder table for the integrands that read none (made at run
+    time: a global tuple would be a read-only constant of another type)."""
+    return (np.zeros(2), np.zeros((1, 1)), 0, np.zeros(1), 1.0, np.ones(1, dtype=np.bool_), np.zeros((1, 1)),
+            np.zeros(1))
 
 
 # --------------------------------------------------------------------------
@@ -123,27 +207,18 @@ def _integrand(kind, x, params, table):
 
 
 @njit(cache=True)
-def _gk21(kind, params, table, shift, a, b):
-    """Kronrod estimate and QUADPACK-style error of the integral of
-    exp(log integrand - shift) on [a, b]."""
-    centre = 0.5 * (a + b)
-    half = 0.5 * (b - a)
-    fv1 = np.empty(10)
-    fv2 = np.empty(10)
-    fc = math.exp(_integrand(kind, centre, params, table) - shift)
+def _gk21_combine(fc, fv1, fv2, half):
+    """Kronrod estimate and QUADPACK-style error from the 21 values of a panel
+    of half-width ``half`` (centre fc, then the pairs fv1[j], fv2[j] at
+    centre -/+ half * _XGK[j])."""
     resk = fc * _WGK[10]
     resg = 0.0
     resabs = abs(resk)
     for j in range(10):
-        dx = half * _XGK[j]
-        f1 = math.exp(_integrand(kind, centre - dx, params, table) - shift)
-        f2 = math.exp(_integrand(kind, centre + dx, params, table) - shift)
-        fv1[j] = f1
-        fv2[j] = f2
-        resk += _WGK[j] * (f1 + f2)
-        resabs += _WGK[j] * (abs(f1) + abs(f2))
+        resk += _WGK[j] * (fv1[j] + fv2[j])
+        resabs += _WGK[j] * (abs(fv1[j]) + abs(fv2[j]))
         if j % 2 == 1:
-            resg += _WG[j // 2] * (f1 + f2)
+            resg += _WG[j // 2] * (fv1[j] + fv2[j])
     mean = 0.5 * resk
     resasc = _WGK[10] * abs(fc - mean)
     for j in range(10):
@@ -156,6 +231,22 @@ def _gk21(kind, params, table, shift, a, b):
     if err < floor:
         err = floor
     return resk * half, err
+
+
+@njit(cache=True)
+def _gk21(kind, params, table, shift, a, b):
+    """Kronrod estimate and QUADPACK-style error of the integral of
+    exp(log integrand - shift) on [a, b]."""
+    centre = 0.5 * (a + b)
+    half = 0.5 * (b - a)
+    fv1 = np.empty(10)
+    fv2 = np.empty(10)
+    fc = math.exp(_integrand(kind, centre, params, table) - shift)
+    for j in range(10):
+        dx = half * _XGK[j]
+        fv1[j] = math.exp(_integrand(kind, centre - dx, params, table) - shift)
+        fv2[j] = math.exp(_integrand(kind, centre + dx, params, table) - shift)
+    return _gk21_combine(fc, fv1, fv2, half)
 
 
 @njit(cache=True)
@@ -257,7 +348,7 @@ def range_log_sf(k, w):
         return 0.0
     params = np.array([float(k), w])
     lower = min(-0.5 * w, -3.0) - 10.0
-    return integrate_exp(INTEGRAND_RANGE, params, _NO_TABLE, lower, 9.0, 12, 1e-13)
+    return integrate_exp(INTEGRAND_RANGE, params, _no_table(), lower, 9.0, 12, 1e-13)
 
 
 @njit(cache=True, inline="always")
@@ -427,12 +518,106 @@ def _max_log_sf_upper_tail(two_sided, lam, tau, mult, w):
 
 @njit(cache=True)
 def _max_adaptive_integrand(z, params):
+    """log of phi(z) P(some |Y_i| > w | Z0 = z) (two-sided) or of
+    phi(z) P(some Y_i > w | Z0 = z); params = [two_sided, w, u, lam.., m..].
+
+    When every comparison's conditional outside probability is below 1e-13,
+    the union is their sum to within that relative error and is added in
+    logarithms: the probabilities themselves may lie below the smallest
+    double (the far tail, w up to 40 and beyond)."""
     two_sided = params[0] > 0.5
     w = params[1]
+    u = int(params[2])
+    largest = -math.inf
+    for i in range(u):
+        lam = params[3 + i]
+        tau = math.sqrt(1.0 - lam * lam)
+        log_out = log_ndtr((lam * z - w) / tau)
+        if two_sided:
+            other = log_ndtr((-w - lam * z) / tau)
+            top = max(log_out, other)
+            if top > -math.inf:
+                log_out = top + math.log1p(math.exp(min(log_out, other) - top))
+        largest = max(largest, log_out)
+    if largest < -30.0:
+        total = 0.0
+        for i in range(u):
+            lam = params[3 + i]
+            tau = math.sqrt(1.0 - lam * lam)
+            log_out = log_ndtr((lam * z - w) / tau)
+            if two_sided:
+                other = log_ndtr((-w - lam * z) / tau)
+                top = max(log_out, other)
+                if top > -math.inf:
+                    log_out = top + math.log1p(math.exp(min(log_out, other) - top))
+            total += params[3 + u + i] * math.exp(log_out - largest)
+        if total <= 0.0:
+            return -math.inf
+        return log_normal_pdf(z) + largest + math.log(total)
     outside = -math.expm1(_sum_log_inside(two_sided, params[2:], w, z))
     if outside <= 0.0:
         return -math.inf
     return log_normal_pdf(z) + math.log(outside)
+
+
+#: Beyond this w the many-to-one tail is integrated adaptively on a window
+#: around where each comparison's excess lies (the Gauss-Hermite nodes do not
+#: reach there), and its table panels are filled on first use.
+FAR_TAIL = 8.0
+
+
+@njit(cache=True)
+def max_far_log_sf(two_sided, params, w):
+    """log P(max > w) for large w: composite Gauss-Kronrod over Z0.
+
+    Given Z0 = z, comparison i exceeds w mostly when z is near lam_i w (its
+    conditional mean lam_i z then reaches w at the cheapest cost), within a
+    few units of it: the window [min lam_i w - 10, max lam_i w + 10] holds all
+    but a negligible part (the integrand falls by e^-50 10 units away). The
+    integrand's narrowest feature has width about tau = sqrt(1 - lam^2) /
+    lam, so the panels are at most half that (and half a unit) wide: a fixed
+    rule, without adaptation, because this evaluation also fills the tables
+    that the adaptive mixture integral reads (no recursion into it). The
+    two-sided integrand is even in z: half the line, doubled.
+    """
+    u = int(params[0])
+    lo = math.inf
+    hi = -math.inf
+    width = 0.5
+    for i in range(u):
+        lam = abs(params[1 + i]) if two_sided else params[1 + i]
+        lo = min(lo, lam * w)
+        hi = max(hi, lam * w)
+        if lam != 0.0:
+            width = min(width, 0.5 * math.sqrt(1.0 - lam * lam) / abs(lam))
+    full = np.empty(params.size + 2)
+    full[0] = 1.0 if two_sided else 0.0
+    full[1] = w
+    full[2:] = params
+    a = 0.0 if two_sided else lo - 10.0
+    b = hi + 10.0
+    n = math.ceil((b - a) / width)
+    h = (b - a) / n
+    shift = -math.inf
+    for i in range(4 * n + 1):
+        shift = max(shift, _max_adaptive_integrand(a + (b - a) * i / (4 * n), full))
+    if shift == -math.inf:
+        return -math.inf
+    fv1 = np.empty(10)
+    fv2 = np.empty(10)
+    total = 0.0
+    for p in range(n):
+        centre = a + (p + 0.5) * h
+        half = 0.5 * h
+        fc = math.exp(_max_adaptive_integrand(centre, full) - shift)
+        for j in range(10):
+            dx = half * _XGK[j]
+            fv1[j] = math.exp(_max_adaptive_integrand(centre - dx, full) - shift)
+            fv2[j] = math.exp(_max_adaptive_integrand(centre + dx, full) - shift)
+        total += _gk21_combine(fc, fv1, fv2, half)[0]
+    if total <= 0.0:
+        return -math.inf
+    return shift + math.log(total) + (math.log(2.0) if two_sided else 0.0)
 
 
 @njit(cache=True)
@@ -449,6 +634,8 @@ def max_log_sf(two_sided, params, w):
     """
     if two_sided and w <= 0.0:
         return 0.0
+    if w > FAR_TAIL:
+        return max_far_log_sf(two_sided, params, w)
     u = int(params[0])
     lam_max = 0.0
     for i in range(u):
@@ -460,7 +647,7 @@ def max_log_sf(two_sided, params, w):
     full[1] = w
     full[2:] = params
     reach = lam_max * abs(w) + 12.0
-    return integrate_exp(INTEGRAND_MAX, full, _NO_TABLE, -reach, reach, 24, 1e-12)
+    return integrate_exp(INTEGRAND_MAX, full, _no_table(), -reach, reach, 24, 1e-12)
 
 
 @njit(cache=True)
@@ -478,24 +665,54 @@ def statistic_log_sf(kind, params, w):
 
 
 @njit(cache=True)
-def fill_table(edges, kind, params, fit, nodes):
-    """Chebyshev coefficients of L(w) on every panel (values at the
-    Chebyshev points of each panel, mapped by the inverse Vandermonde)."""
-    n_panels = edges.size - 1
-    n = nodes.size
-    coef = np.empty((n_panels, n))
-    values = np.empty(n)
-    for j in range(n_panels):
-        a = edges[j]
-        b = edges[j + 1]
+def _fit_panel(table, j, values):
+    """Chebyshev coefficients of panel j from L at its Chebyshev points."""
+    coef, fit = table[1], table[6]
+    n = values.size
+    for r in range(n):
+        acc = 0.0
         for i in range(n):
-            values[i] = statistic_log_sf(kind, params, 0.5 * (a + b) + 0.5 * (b - a) * nodes[i])
-        for r in range(n):
-            acc = 0.0
-            for i in range(n):
-                acc += fit[r, i] * values[i]
-            coef[j, r] = acc
-    return coef
+            acc += fit[r, i] * values[i]
+        coef[j, r] = acc
+    table[5][j] = True
+
+
+@njit(cache=True)
+def _panel_points(table, j):
+    edges, nodes = table[0], table[7]
+    a = edges[j]
+    b = edges[j + 1]
+    return 0.5 * (a + b) + 0.5 * (b - a) * nodes
+
+
+@njit(cache=True)
+def fill_table_panel(table, j):
+    """Fill panel j from the statistic's direct evaluation."""
+    points = _panel_points(table, j)
+    values = np.empty(points.size)
+    for i in range(points.size):
+        values[i] = statistic_log_sf(table[2], table[3], points[i])
+    _fit_panel(table, j, values)
+
+
+@njit(cache=True)
+def _fill_far_panel(table, j):
+    """Fill a far-tail panel of a many-to-one table, on first use (from
+    table_log_sf: by max_far_log_sf only, which reads no table)."""
+    points = _panel_points(table, j)
+    values = np.empty(points.size)
+    for i in range(points.size):
+        values[i] = max_far_log_sf(table[2] == KIND_MAX_ABS, table[3], points[i])
+    _fit_panel(table, j, values)
+
+
+@njit(cache=True)
+def fill_table(table, upto):
+    """Fill every panel that ends at or below ``upto`` (the rest on first use)."""
+    edges = table[0]
+    for j in range(edges.size - 1):
+        if edges[j + 1] <= upto and not table[5][j]:
+            fill_table_panel(table, j)
 
 
 @njit(cache=True, inline="always")
@@ -509,15 +726,21 @@ def table_log_sf(table, w):
     """
     edges = table[0]
     coef = table[1]
+    done = table[5]
     last = edges.size - 1
     if w >= edges[last]:
+        if not done[last - 1]:
+            _fill_far_panel(table, last - 1)
         tail_scale = table[4]
         edge_value = cheb_panel(edges, coef, last - 1, edges[last])
         return edge_value + log_ndtr(-w / tail_scale) - log_ndtr(-edges[last] / tail_scale)
     if w <= edges[0]:
         edge_value = cheb_panel(edges, coef, 0, edges[0])
         return edge_value * math.exp(log_ndtr(w) - log_ndtr(edges[0]))
-    return cheb_panel(edges, coef, find_panel(edges, w), w)
+    j = find_panel(edges, w)
+    if not done[j]:
+        _fill_far_panel(table, j)
+    return cheb_panel(edges, coef, j, w)
 
 
 @njit(cache=True)
@@ -682,7 +905,10 @@ def _mixture_window(table, c, nu, upper, w_median):
     t_lo = _chi_drop_inverse(DROP / nu, -1)
     t_hi = _chi_drop_inverse(DROP / nu, 1)
     if c != 0.0:
-        t_c = math.log(w_median / abs(c))
+        # where c s meets the statistic's bulk; the median of a single one-sided
+        # comparison is 0 (the table gives it to rounding, perhaps below 0), and
+        # the bulk of every statistic here lies at w of order one
+        t_c = math.log(max(w_median, 0.5) / abs(c))
         t_lo = min(t_lo, t_c - 4.0 - DROP / nu)
         t_hi = max(t_hi, min(t_c + 4.0, _chi_drop_inverse((DROP + 40.0) / nu, 1)))
     # A coarse scan (uniform, plus a few points across the chi peak at t = 0)

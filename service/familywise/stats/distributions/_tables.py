@@ -8,30 +8,35 @@ from functools import lru_cache
 import numpy as np
 
 from familywise.stats.distributions import _kernels as kernels
-from familywise.stats.distributions._numerics import chebyshev_fit_matrix
 
-_NODES, _FIT = chebyshev_fit_matrix(kernels.PANEL_NODES)
+_NODES, _FIT = (np.ascontiguousarray(a) for a in kernels.chebyshev_fit_matrix(kernels.PANEL_NODES))
 
 # Panels are narrow where the statistics change shape (their bulk lies below
 # about 8) and wide in the Gaussian tail, where L(w) is close to quadratic.
 _RANGE_EDGES = np.concatenate([np.arange(0.0, 16.0, 1.0), np.arange(16.0, 65.0, 4.0)])
-# Past w = 8 the many-to-one tail is continued by the shape of the union
-# bound (see table_log_sf); its relative error there is below 1e-5 and only
-# reaches p-values under about 1e-14. Tables are filled in full when made:
-# 28 panels for the range (once per k), 6 or 10 for the many-to-one.
-# Panels one unit wide across the bulk keep the interpolation error of L
-# below about 1e-10 (3e-9 for 19 comparisons; measured against direct
-# evaluation), wider panels in the tail.
-_MAX_ABS_EDGES = np.array([0.0, 1.0, 2.0, 3.0, 4.0, 6.0, 8.0])
-_MAX_EDGES = np.array([-8.0, -4.0, -2.0, -1.0, 0.0, 1.0, 2.0, 3.0, 4.0, 6.0, 8.0])
+# The many-to-one: panels one unit wide across the bulk keep the
+# interpolation error of L below about 1e-10 (3e-9 for 19 comparisons;
+# measured against direct evaluation); in the far tail, from w = 8 to 40,
+# panels four wide, filled on first use (they are reached only by p-values
+# below about 1e-14, or by the chi mixture at very few df). Beyond w = 40 L
+# follows the Gaussian tail of one comparison, matched at the edge: the
+# overlap of the comparisons it then neglects is below exp(-40^2 (1 - rho) /
+# (2 (1 + rho))) relative, rho the largest correlation, and the probabilities
+# there (below 1e-340) are beyond double precision anyway.
+_FAR_EDGES = np.arange(12.0, 41.0, 4.0)
+_MAX_ABS_EDGES = np.concatenate([[0.0, 1.0, 2.0, 3.0, 4.0, 6.0, 8.0], _FAR_EDGES])
+_MAX_EDGES = np.concatenate([[-8.0, -4.0, -2.0, -1.0, 0.0, 1.0, 2.0, 3.0, 4.0, 6.0, 8.0], _FAR_EDGES])
 
-Table = tuple  # (edges, coef, kind, params, tail_scale), see _kernels
+Table = tuple  # (edges, coef, kind, params, tail_scale, done, fit, nodes), see _kernels
 
 
 def _new_table(kind: int, params: np.ndarray, edges: np.ndarray, tail_scale: float) -> Table:
     params = np.ascontiguousarray(params, dtype=np.float64)
-    coef = kernels.fill_table(edges, kind, params, _FIT, _NODES)
-    return (edges, coef, kind, params, float(tail_scale))
+    n_panels = edges.size - 1
+    table = (edges, np.zeros((n_panels, kernels.PANEL_NODES)), kind, params, float(tail_scale),
+             np.zeros(n_panels, dtype=np.bool_), _FIT, _NODES)
+    kernels.fill_table(table, kernels.FAR_TAIL if kind != kernels.KIND_RANGE else np.inf)
+    return table
 
 
 def _median(table: Table, lo: float, hi: float) -> float:

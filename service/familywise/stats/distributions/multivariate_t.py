@@ -31,6 +31,10 @@ from scipy.stats import qmc
 
 SEED = 20261201
 ERROR_MULTIPLE = 3.5
+#: Working memory of one evaluation, in doubles: the c values are taken a few
+#: at a time so that a large set of contrasts needs tens of megabytes, not
+#: gigabytes (each c needs points x shifts x (m - 1) doubles).
+WORKING_DOUBLES = 8_000_000
 
 
 class MaxAbsT:
@@ -53,6 +57,11 @@ class MaxAbsT:
 
     def _estimates(self, c: np.ndarray) -> np.ndarray:
         """Per-scrambling estimates of P(max |T_i| <= c), shape (len(c), shifts)."""
+        per_c = self._scale.size * max(self._chol.shape[0] - 1, 1)
+        step = max(1, WORKING_DOUBLES // per_c)
+        return np.concatenate([self._chunk(c[i : i + step]) for i in range(0, c.size, step)])
+
+    def _chunk(self, c: np.ndarray) -> np.ndarray:
         chol = self._chol
         m = chol.shape[0]
         bound = np.asarray(c, dtype=float)[:, None, None] * self._scale  # c x shifts x points

@@ -165,14 +165,17 @@ ADJUSTMENTS = {
 
 def agreeing_critical_value(critical: float, evidence: np.ndarray, p_values: np.ndarray,
                             alpha: float) -> float:
-    """The critical value, moved (if at all) by a few units in the last place
-    so that evidence > critical exactly when p < alpha (evidence: |t| for
-    two-sided tests, the signed statistic in the alternative's direction for
-    one-sided ones).
+    """The critical value, moved (if at all) to just past the nearest
+    statistic on the wrong side, so that evidence > critical exactly when
+    p < alpha (evidence: |t| for two-sided tests, the signed statistic in the
+    alternative's direction for one-sided ones).
 
-    The quantile and the p-values come from the same distribution code and
-    agree to about 1e-11 relative; a statistic that lands inside that band
-    would otherwise have an interval and a p-value that disagree.
+    The quantile and the p-values come from the same distribution code: the
+    families read both from one tabulated curve, the quantile found by
+    bisection on it, so they agree to a few units in the last place, and the
+    general multivariate t reads both from the same fixed points. A statistic
+    that lands inside that band would otherwise have an interval and a
+    p-value that disagree; the move is then of the band's size.
     """
     significant = p_values < alpha
     above = evidence[significant]

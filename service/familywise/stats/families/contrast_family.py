@@ -53,6 +53,11 @@ from familywise.stats.families._common import (
 )
 
 ADJUSTMENT_NAMES = ("none", "bonferroni", "sidak", "holm", "benjamini_hochberg", "multivariate_t", "scheffe")
+#: Most contrasts whose correlation has no product structure that the
+#: multivariate t takes (by quasi-Monte Carlo, whose cost grows as m^3: about
+#: ten seconds at this size on one core); larger sets are refused with the
+#: alternatives named.
+MAX_GENERAL_MULTIVARIATE_T = 60
 
 
 def contrast_family(
@@ -157,6 +162,11 @@ def _multivariate_t(matrix, sizes, abs_t, df, alpha):
         critical = curve.isf(alpha)
         return p, critical, None, ("The contrasts' correlation has product structure: exact "
                                    "many-to-one probabilities (Dunnett 1955).")
+    if m > MAX_GENERAL_MULTIVARIATE_T:
+        raise DataError("multivariate_t_size", f"the multivariate t for {m} contrasts whose correlation has no "
+                        f"product structure is limited to {MAX_GENERAL_MULTIVARIATE_T} contrasts (its cost grows "
+                        "as the cube of their number); use holm or sidak (familywise, valid for any "
+                        "correlation) or scheffe", "/adjustment")
     exact = MaxAbsT(corr, df)
     p, error = exact.sf(abs_t)
     critical = exact.isf(alpha)
