@@ -79,10 +79,10 @@ def run_item(index: int, item: dict[str, Any]) -> dict[str, Any]:
         problem = validation_problem(exc.errors(include_url=False), prefix, body=item["request"])
     except DataError as exc:
         problem = ProblemError("unanalysable-data", exc.message, pointer=prefix + exc.pointer, rule=exc.rule)
-    except ProblemError as exc:
-        problem = exc
-        if exc.pointer is not None:
-            problem.pointer = prefix + exc.pointer
+    except ProblemError as exc:  # raised inside the operation: pointers relative to the item's request
+        problem = ProblemError(exc.slug, exc.detail, None if exc.pointer is None else prefix + exc.pointer,
+                               exc.rule, [{**e, "pointer": prefix + e["pointer"]} for e in exc.errors],
+                               dict(exc.headers), dict(exc.extra))
     except Exception:  # a bug: reported for this item only, never failing the batch
         log.exception("batch item %s (%s) failed", item.get("id"), operation)
         problem = ProblemError("internal-error", "this item failed inside the service (a bug)")

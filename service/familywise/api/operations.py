@@ -12,6 +12,7 @@ from typing import Any
 
 from pydantic import BaseModel, ValidationError
 
+from familywise.api.problems import ProblemError, validation_problem
 from familywise.api.routing import one_way_data
 from familywise.api.schemas.families import (
     BestRequest,
@@ -124,29 +125,99 @@ FAMILY_RUNNERS: dict[str, Callable[[Any], dict[str, Any]]] = {
 
 
 def run_recommendation(request) -> dict[str, Any]:
-    q = request.question
-    question = Question(
+    data = one_way_data(request.groups) if request.groups is not None else None
+    return plain(recommend(_question(request.question), data, request.sizes, request.alpha))
+
+
+def _question(q) -> Question:
+    """The statistics layer's question from the request's (margins as the equivalence family takes them)."""
+    return Question(
         planned=q.planned, reference=q.reference, control=q.control, best=q.best, alternative=q.alternative,
         error_rate=q.error_rate, contrasts=tuple((c.name, c.coefficients) for c in q.contrasts),
         intervals_needed=q.intervals_needed, goal=q.goal,
         margin=None if q.margin is None else (q.margin if isinstance(q.margin, float)
                                               else {"relative": q.margin.relative}),
     )
-    data = one_way_data(request.groups) if request.groups is not None else None
-    return plain(recommend(question, data, request.sizes, request.alpha))
 
 
-def _family_request(family: str, method: str | None, options: dict[str, Any], request) -> BaseModel:
-    """The request a family's own endpoint would take, from a method and options."""
-    base: dict[str, Any] = {"groups": request.groups, "alpha": request.alpha}
-    fields = {k: v for k, v in options.items() if v is not None}
-    if family == "contrasts":
-        fields["adjustment"] = method or fields.get("adjustment", "none")
+#: Pointers of a family endpoint's request that name the analysis request's own top-level fields.
+_SHARED_FIELDS = ("groups", "alpha")
+
+
+def _requested_followup(followup) -> tuple[str, dict[str, Any], Callable[[str], str]]:
+    """The family, the fields its endpoint takes, and where each field was written
+    in the analysis request, from an explicit ``followup``. Contradictions and
+    options that would be dropped are refused, naming the followup field."""
+    fields = followup.model_dump(exclude_none=True)
+    family, method = fields.pop("family"), fields.pop("method", None)
+    renamed: dict[str, str] = {}
+    if family == "best":
+        if method not in (None, "hsu_mcb"):
+            raise DataError("method", f"the best family has one method, hsu_mcb (Hsu's multiple comparisons "
+                            f"with the best); {method!r} is not it", "/followup/method")
+    elif family == "contrasts":
+        if method is not None:
+            adjustment = fields.get("adjustment")
+            if adjustment is not None and adjustment != method:
+                raise DataError("contradiction", f"method {method!r} and adjustment {adjustment!r} disagree: for "
+                                "contrasts the method is the adjustment, so give one of them (or the same in "
+                                "both)", "/followup/method")
+            if adjustment is None:
+                renamed["/adjustment"] = "/followup/method"
+            fields["adjustment"] = method
     elif method is not None:
         fields["method"] = method
-    if family == "best":
-        fields.pop("method", None)
-    return FAMILY_MODELS[family].model_validate({**base, **fields})
+    if family == "pairwise":
+        chosen = fields.get("method", PairwiseRequest.model_fields["method"].default)
+        if "dunn_adjustment" in fields and chosen != "dunn":
+            raise DataError("contradiction", f"dunn_adjustment applies to method 'dunn' only, and the method is "
+                            f"{chosen!r}: drop dunn_adjustment or set method to 'dunn'", "/followup/dunn_adjustment")
+        if fields.get("protected") and chosen != "lsd":
+            raise DataError("contradiction", f"protected applies to method 'lsd' only (Fisher's protected LSD), "
+                            f"and the method is {chosen!r}", "/followup/protected")
+
+    def where(pointer: str) -> str:
+        if not pointer or pointer.strip("/").split("/")[0] in _SHARED_FIELDS:
+            return pointer
+        for old, new in renamed.items():
+            if pointer == old or pointer.startswith(old + "/"):
+                return new + pointer[len(old):]
+        return "/followup" + pointer
+
+    return family, fields, where
+
+
+def _recommended_followup(question) -> Callable[[str], str]:
+    """Where the question holds each field the recommended family's endpoint takes:
+    its control (also the equivalence reference, and the source of the
+    comparisons-with-control contrasts), alternative, best, margin and contrasts.
+    The method and adjustment are the recommendation's own: a refusal of them
+    points at the question as a whole."""
+
+    def where(pointer: str) -> str:
+        head, _, rest = pointer.strip("/").partition("/")
+        if not pointer or head in _SHARED_FIELDS:
+            return pointer
+        if head == "contrasts" and not question.contrasts:
+            return "/question/control"
+        if head == "reference":
+            head = "control"
+        if head in ("control", "alternative", "best", "margin", "contrasts"):
+            return f"/question/{head}" + (f"/{rest}" if rest else "")
+        return "/question"
+
+    return where
+
+
+def _moved(problem: ProblemError, where: Callable[[str], str], family: str) -> ProblemError:
+    """A validation problem of a family endpoint's request, its pointers moved to the analysis request."""
+    errors = [{**entry, "pointer": where(entry["pointer"])} for entry in problem.errors]
+    first = errors[0] if errors else {"pointer": where(problem.pointer or ""), "rule": problem.rule,
+                                      "detail": problem.detail}
+    detail = f"the follow-up options are not valid for {family!r}: {first['pointer']}: {first['detail']}"
+    if len(errors) > 1:
+        detail += f" (and {len(errors) - 1} more)"
+    return ProblemError(problem.slug, detail, pointer=first["pointer"], rule=first["rule"], errors=errors)
 
 
 def run_analysis(request) -> dict[str, Any]:
@@ -154,23 +225,29 @@ def run_analysis(request) -> dict[str, Any]:
     recommendation = run_recommendation(
         RecommendationRequest(question=request.question, groups=request.groups, alpha=request.alpha))
     if request.followup is not None:
-        choice = request.followup.model_dump(exclude_none=True)
-        family, method = choice.pop("family"), choice.pop("method", None)
-        source, pointer = "requested", "/followup"
+        family, fields, where = _requested_followup(request.followup)
+        source = "requested"
     else:
-        family, method, choice = recommendation["family"], recommendation["method"], recommendation["options"]
-        source, pointer = "recommended", "/question"
-    if family == "equivalence" and "margin" not in choice:
+        family, method = recommendation["family"], recommendation["method"]
+        fields = {k: v for k, v in recommendation["options"].items() if v is not None}
+        if family == "contrasts":
+            fields["adjustment"] = method
+        elif family != "best":
+            fields["method"] = method
+        where = _recommended_followup(request.question)
+        source = "recommended"
+    if family == "equivalence" and "margin" not in fields:
         raise DataError("margin", "equivalence needs a margin: give question.margin or followup.margin",
-                        f"{pointer}/margin")
+                        where("/margin"))
     try:
-        family_request = _family_request(family, method, choice, request)
+        family_request = FAMILY_MODELS[family].model_validate(
+            {"groups": request.groups, "alpha": request.alpha, **fields})
     except ValidationError as exc:
-        first = exc.errors(include_url=False)[0]
-        location = "/".join(str(p) for p in first["loc"])
-        raise DataError("followup", f"the follow-up options are not valid for {family!r}: "
-                        f"{location}: {first['msg']}", f"{pointer}/{location}") from None
-    followup = FAMILY_RUNNERS[family](family_request)
+        raise _moved(validation_problem(exc.errors(include_url=False), body=fields), where, family) from None
+    try:
+        followup = FAMILY_RUNNERS[family](family_request)
+    except DataError as exc:
+        raise DataError(exc.rule, exc.message, where(exc.pointer)) from None
     return {
         "omnibus": omnibus_result,
         "recommendation": recommendation,

@@ -58,7 +58,10 @@ def family_json(result: FamilyResult) -> dict[str, Any]:
     """A FamilyResult as JSON-ready values (faster than ``plain`` for the
     many rows of a family, and leaving out row fields the family does not use)."""
     records = [row.__dict__ for row in result.comparisons]
-    used = [n for n in _ROW_NAMES if n in ROW_FIELDS or any(r[n] is not None for r in records)]
+    filled = set(ROW_FIELDS)
+    for record in records:
+        filled.update(name for name, value in record.items() if value is not None)
+    used = [n for n in _ROW_NAMES if n in filled]
     rows = [{n: r[n] for n in used} for r in records]
     for row in rows:
         for key, value in row.items():

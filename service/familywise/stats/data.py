@@ -205,7 +205,7 @@ class OneWayData:
         group whose values are all equal, whatever the rounding of its mean)."""
         centred = self._pooled - np.repeat(self.mean_deviations, self.sizes.astype(np.intp))
         ss = np.add.reduceat(centred * centred, self._starts)
-        constant = np.array([np.ptp(d) == 0.0 for d in self.deviations])
+        constant = np.maximum.reduceat(self._pooled, self._starts) == np.minimum.reduceat(self._pooled, self._starts)
         return np.where(constant, 0.0, ss)
 
     @cached_property

@@ -39,14 +39,17 @@ class Question(Strict):
     control: Label | None = Field(None, description="The control's label (reference = control).")
     best: Literal["highest", "lowest"] | None = Field(
         None, description="Reference = best: whether the highest or the lowest mean is best.")
-    alternative: Alternative = Field("two_sided", description="Reference = control: one- or two-sided.")
+    alternative: Alternative = Field(
+        "two_sided", description="Reference = control, goal differences, familywise error: one- or two-sided "
+                                 "(Dunnett). A one-sided alternative with another goal or error rate is refused.")
     error_rate: ErrorRate = Field("familywise", description="Which error rate matters.")
     contrasts: list[Contrast] = Field(default_factory=list, description="The planned contrasts, if any.")
     intervals_needed: StrictBool = Field(True, description="Are simultaneous intervals needed, or decisions only?")
     goal: Literal["differences", "equivalence"] = Field(
         "differences", description="Find differences, or show equivalence to the reference (control).")
     margin: Number | RelativeMargin | None = Field(
-        None, description="Goal equivalence: the margin (absolute, or {\"relative\": fraction}).")
+        None, description="Goal equivalence: the margin, a positive number in data units, or {\"relative\": "
+                          "positive fraction of the reference mean's magnitude}.")
 
 
 class RecommendationRequest(Strict):
@@ -88,7 +91,11 @@ class FollowupChoice(Strict):
     """An explicit follow-up instead of the recommended one (fields as the family's endpoint takes them)."""
 
     family: Literal["pairwise", "control", "best", "contrasts", "equivalence"]
-    method: str | None = None
+    method: str | None = Field(
+        None, description="The family's method as its endpoint names it. For contrasts it is the adjustment "
+                          "(give method or adjustment, or the same in both); for best only hsu_mcb. Options "
+                          "that do not apply to the method (dunn_adjustment without dunn, protected without "
+                          "lsd) are refused, not ignored.")
     control: Label | None = None
     alternative: Alternative | None = None
     best: Literal["highest", "lowest"] | None = None
