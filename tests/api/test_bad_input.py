@@ -109,7 +109,9 @@ def test_csv_refusals(client) -> None:
 
     r = csv("group,value\na,1\na,x\nb,2\n")
     assert r.status_code == 422 and r.json()["rule"] == "csv-number"
-    assert "row 2" in r.json()["detail"] and "'value'" in r.json()["detail"]
+    # the bad cell is on line 3 of the file (the header is line 1)
+    assert "line 3" in r.json()["detail"] and "'value'" in r.json()["detail"]
+    assert r.json()["pointer"] == "/csv/lines/3/value"
     r = csv("kind,value\na,1\nb,2\n")
     assert r.status_code == 422 and r.json()["rule"] == "csv-column"
     r = csv("")

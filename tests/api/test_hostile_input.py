@@ -314,7 +314,8 @@ CSV_NUMBERS = [
 @pytest.mark.parametrize(("cell", "rule"), CSV_NUMBERS, ids=[c[0] for c in CSV_NUMBERS])
 def test_csv_cells_that_are_not_numbers(client, cell, rule) -> None:
     body = f'group,value\nwell A,"{cell}"\nwell A,1\nwell B,2\nwell B,3\n'.encode()
-    assert_problem(client.post("/v1/omnibus", content=body, headers=CSV), 422, rule, "/csv/rows/1/value")
+    # the cell is on line 2 of the file (the header is line 1)
+    assert_problem(client.post("/v1/omnibus", content=body, headers=CSV), 422, rule, "/csv/lines/2/value")
 
 
 def test_csv_huge_number(client) -> None:

@@ -33,6 +33,9 @@ PLAN_ANSWER = {
 }
 UNAVAILABLE = {"type": "/problems/computation-timeout", "title": "Computation took too long", "status": 503,
                "detail": "try again"}
+#: A 503 that says nothing about the request itself (a proxy or load balancer with no healthy replica):
+#: the same request may well succeed later.
+OVERLOADED = {"type": "/problems/overloaded", "title": "No replica free", "status": 503, "detail": "try again"}
 FAST = {"backoff": 0.01, "max_backoff": 0.02}
 
 
@@ -131,7 +134,7 @@ def test_mistakes_in_python_are_caught_before_sending(client: Client) -> None:
 
 @pytest.mark.parametrize("kind", KINDS)
 def test_503_is_retried_with_the_same_body_and_request_id(kind: str) -> None:
-    script = [Step(503, UNAVAILABLE), Step(503, UNAVAILABLE), Step(body=PLAN_ANSWER)]
+    script = [Step(503, OVERLOADED), Step(503, OVERLOADED), Step(body=PLAN_ANSWER)]
     with ScriptedServer(script) as fake:
         started = time.monotonic()
         answer = call(kind, fake.base_url, "plan", **PLAN)
@@ -162,15 +165,48 @@ def test_other_errors_are_final_at_once(status: int) -> None:
 
 @pytest.mark.parametrize("kind", KINDS)
 def test_after_the_last_retry_the_503_is_raised(kind: str) -> None:
-    with ScriptedServer([Step(503, UNAVAILABLE)]) as fake, pytest.raises(FamilywiseError) as caught:
+    with ScriptedServer([Step(503, OVERLOADED)]) as fake, pytest.raises(FamilywiseError) as caught:
         call(kind, fake.base_url, "plan", {"retries": 2}, **PLAN)
     assert len(fake.received) == 3
-    assert (caught.value.status, caught.value.problem_type) == (503, "/problems/computation-timeout")
+    assert (caught.value.status, caught.value.problem_type) == (503, "/problems/overloaded")
     assert not isinstance(caught.value, FamilywiseConnectionError)
 
 
+@pytest.mark.parametrize("kind", KINDS)
+@pytest.mark.parametrize("problem_type", ["/problems/computation-timeout",
+                                          "https://familywise.example/problems/computation-timeout"])
+def test_a_computation_timeout_is_final_at_once(kind: str, problem_type: str) -> None:
+    """The service's own 503 for a computation over its time limit: the same body would take as long
+    again, so the client neither retries it nor waits the Retry-After the service sends with it."""
+    script = [Step(503, {**UNAVAILABLE, "type": problem_type}, headers={"Retry-After": "30"}),
+              Step(body=PLAN_ANSWER)]
+    started = time.monotonic()
+    with ScriptedServer(script) as fake, pytest.raises(FamilywiseError) as caught:
+        call(kind, fake.base_url, "plan", {"max_retry_after": 30.0}, **PLAN)
+    elapsed = time.monotonic() - started
+    assert len(fake.received) == 1
+    assert elapsed < 5.0  # not the 30 s of Retry-After
+    assert (caught.value.status, caught.value.problem_type) == (503, problem_type)
+    assert not isinstance(caught.value, FamilywiseConnectionError)
+
+
+@pytest.mark.parametrize(("body", "content_type"), [
+    (b"Service Unavailable", "text/plain"),  # a proxy's own page
+    (b"<html><body>503</body></html>", "text/html"),
+    ({"title": "Service Unavailable", "status": 503}, None),  # a problem without a type
+    (dict(UNAVAILABLE, type="/problems/computation-timeout-elsewhere"), None),
+    ({"type": 17, "title": "odd", "status": 503}, None),
+    (b"{not json", "application/problem+json"),
+])
+def test_other_503s_are_still_retried(body: Any, content_type: str | None) -> None:
+    with ScriptedServer([Step(503, body, content_type=content_type), Step(body=PLAN_ANSWER)]) as fake:
+        answer = call("sync", fake.base_url, "plan", **PLAN)
+    assert answer.n_per_group == 14
+    assert len(fake.received) == 2
+
+
 def test_retry_after_is_honoured() -> None:
-    with ScriptedServer([Step(503, UNAVAILABLE, headers={"Retry-After": "1"}), Step(body=PLAN_ANSWER)]) as fake:
+    with ScriptedServer([Step(503, OVERLOADED, headers={"Retry-After": "1"}), Step(body=PLAN_ANSWER)]) as fake:
         started = time.monotonic()
         call("sync", fake.base_url, "plan", **PLAN)
         elapsed = time.monotonic() - started
@@ -179,7 +215,7 @@ def test_retry_after_is_honoured() -> None:
 
 
 def test_retry_after_is_capped() -> None:
-    with ScriptedServer([Step(503, UNAVAILABLE, headers={"Retry-After": "3600"}), Step(body=PLAN_ANSWER)]) as fake:
+    with ScriptedServer([Step(503, OVERLOADED, headers={"Retry-After": "3600"}), Step(body=PLAN_ANSWER)]) as fake:
         started = time.monotonic()
         call("sync", fake.base_url, "plan", {"max_retry_after": 0.05}, **PLAN)
         elapsed = time.monotonic() - started

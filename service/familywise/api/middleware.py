@@ -32,6 +32,9 @@ access_log = logging.getLogger("familywise.access")
 #: Paths open without an API key (probes must work before any key exists).
 OPEN_PATHS = frozenset({"/healthz", "/readyz"})
 
+#: HTTP methods named in the metrics' labels; any other is counted as "other".
+_METHODS = frozenset({"GET", "HEAD", "POST", "PUT", "PATCH", "DELETE", "OPTIONS"})
+
 
 class RequestContext:
     """One pure ASGI layer for every request: accept or create a request id
@@ -105,10 +108,12 @@ class RequestContext:
                     await self._refuse(scope, send_with_id, received)
         finally:
             elapsed = time.perf_counter() - started
+            # label values from fixed sets only: an unknown path or method is "other"
             endpoint = path if path in self.endpoints else "other"
             method = scope.get("method", "")
+            method = method if method in _METHODS else "other"
             metrics.REQUESTS.labels(endpoint, method, str(status)).inc()
-            metrics.LATENCY.labels(endpoint, method).observe(elapsed)
+            metrics.LATENCY.labels(endpoint, method, str(status)).observe(elapsed)
             if access_log.isEnabledFor(logging.INFO):
                 access_log.info(json.dumps({
                     "event": "request",

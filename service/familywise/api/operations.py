@@ -12,6 +12,7 @@ from typing import Any
 
 from pydantic import BaseModel, ValidationError
 
+from familywise.api import metrics
 from familywise.api.problems import ProblemError, validation_problem
 from familywise.api.routing import one_way_data
 from familywise.api.schemas.families import (
@@ -41,6 +42,7 @@ def run_omnibus(request) -> dict[str, Any]:
     return plain(omnibus(one_way_data(request.groups), request.alpha))
 
 
+@metrics.timed_family
 def compute_pairwise(request) -> FamilyResult:
     data = one_way_data(request.groups)
     omnibus_p = anova_table(data).p_value if request.method == "lsd" and request.protected else None
@@ -48,15 +50,18 @@ def compute_pairwise(request) -> FamilyResult:
                     dunn_adjustment=request.dunn_adjustment, omnibus_p_value=omnibus_p)
 
 
+@metrics.timed_family
 def compute_control(request) -> FamilyResult:
     return versus_control(one_way_data(request.groups), request.control, request.method, request.alternative,
                           request.alpha)
 
 
+@metrics.timed_family
 def compute_best(request) -> FamilyResult:
     return versus_best(one_way_data(request.groups), request.best, request.alpha)
 
 
+@metrics.timed_family
 def compute_contrasts(request) -> FamilyResult:
     data = one_way_data(request.groups)
     names, matrix = contrast_rules.coefficient_matrix(
@@ -65,6 +70,7 @@ def compute_contrasts(request) -> FamilyResult:
     return contrast_family(data, names, matrix, request.adjustment, request.alpha)
 
 
+@metrics.timed_family
 def compute_equivalence(request) -> FamilyResult:
     margin = request.margin
     relative = not isinstance(margin, float)

@@ -21,7 +21,7 @@ from fastapi.routing import APIRoute
 from pydantic import BaseModel, ValidationError
 
 from familywise.api import metrics
-from familywise.api.parsing import CSV_FORMAT_PARAMETERS, parse_csv, parse_json, query_value
+from familywise.api.parsing import CSV_FORMAT_PARAMETERS, parse_csv, parse_json, query_fields
 from familywise.api.problems import ProblemError
 from familywise.api.settings import Settings
 
@@ -116,7 +116,7 @@ class FamilywiseRoute(APIRoute):
         offload = self.offload
 
         async def handler(request: Request) -> Response:
-            obj = await decode_body(request, accepts_csv)
+            obj = await decode_body(request, accepts_csv, model)
             try:
                 validated = model.model_validate(obj)
             except ValidationError as exc:
@@ -204,19 +204,22 @@ def _request_model(endpoint: Callable[..., Any]) -> tuple[type[BaseModel] | None
     return None, False
 
 
-async def decode_body(request: Request, accepts_csv: bool) -> Any:
-    """The request body as Python objects (numbers as Decimal), within limits."""
+async def decode_body(request: Request, accepts_csv: bool, model: type[BaseModel]) -> Any:
+    """The request body as Python objects (numbers as Decimal), within limits.
+
+    A CSV body gives the groups; the request's other fields come from the
+    query string, each typed by ``model``'s field of that name
+    (:func:`familywise.api.parsing.query_fields`)."""
     kind = media_type(request)
     raw = await request.body()
     settings: Settings = request.app.state.settings
     if kind in JSON_TYPES or (kind == "" and raw[:1] in (b"{", b"[")):
         obj = parse_json(raw)
     elif accepts_csv and kind in CSV_TYPES:
-        options = {k: v for k, v in request.query_params.items() if k in CSV_FORMAT_PARAMETERS}
-        obj = parse_csv(raw, options)
-        for key, value in request.query_params.items():
-            if key not in CSV_FORMAT_PARAMETERS:
-                obj[key] = query_value(value)
+        params = request.query_params.multi_items()
+        fields = query_fields(params, model)  # a repeated parameter is refused before the CSV is parsed
+        obj = parse_csv(raw, {k: v for k, v in params if k in CSV_FORMAT_PARAMETERS})
+        obj.update(fields)
     else:
         allowed = "application/json" + (" or text/csv" if accepts_csv else "")
         raise ProblemError(

@@ -9,7 +9,10 @@ jitter:
 * HTTP 502, 503 and 504 (a 503 names its wait in Retry-After, which is
   honoured up to ``max_retry_after`` seconds).
 
-Any other answer, every 4xx included, is final at once.
+Any other answer, every 4xx included, is final at once; so is a 503 whose
+problem document says the computation took longer than the service's time
+limit (type ``/problems/computation-timeout``): the same body takes as long
+again, so a retry only adds load. Split the request, or raise the limit.
 
 :class:`Exchange` is the retry loop without any input or output: iterating
 over it yields the request to send or the seconds to wait; the client
@@ -21,8 +24,10 @@ and how they sleep.
 from __future__ import annotations
 
 import email.utils
+import json
 import random
 import time
+import urllib.parse
 from collections.abc import Callable, Iterator
 from dataclasses import dataclass
 from typing import Generic, TypeVar
@@ -34,6 +39,10 @@ from familywise_client.errors import FamilywiseConnectionError
 T = TypeVar("T")
 
 RETRY_STATUSES = frozenset({502, 503, 504})
+
+#: Problem types (the last segment of a problem document's ``type``) that
+#: are final whatever their status: the same request would fail the same way.
+FINAL_PROBLEMS = frozenset({"computation-timeout"})
 
 #: Transport errors after which the same request may succeed.
 TRANSIENT_ERRORS = (httpx.TimeoutException, httpx.NetworkError, httpx.RemoteProtocolError)
@@ -67,7 +76,7 @@ class RetryPolicy:
             return None
         if isinstance(outcome, httpx.TransportError):
             return self._backoff(attempt) if isinstance(outcome, TRANSIENT_ERRORS) else None
-        if outcome.status_code not in RETRY_STATUSES:
+        if outcome.status_code not in RETRY_STATUSES or (outcome.status_code == 503 and _final_problem(outcome)):
             return None
         after = retry_after(outcome.headers.get("retry-after"))
         return min(after, self.max_retry_after) if after is not None else self._backoff(attempt)
@@ -75,6 +84,24 @@ class RetryPolicy:
     def _backoff(self, attempt: int) -> float:
         ceiling = min(self.max_backoff, self.backoff * 2.0 ** (attempt - 1))
         return ceiling / 2 + random.uniform(0, ceiling / 2)
+
+
+def _final_problem(response: httpx.Response) -> bool:
+    """Whether the answer is a problem document of a type in FINAL_PROBLEMS
+    (``/problems/computation-timeout``, or that path under any base URI)."""
+    media_type = response.headers.get("content-type", "").split(";")[0].strip().lower()
+    if media_type not in ("application/problem+json", "application/json"):
+        return False
+    try:
+        document = json.loads(response.content)
+    except ValueError:
+        return False
+    kind = document.get("type") if isinstance(document, dict) else None
+    if not isinstance(kind, str):
+        return False
+    path = urllib.parse.urlsplit(kind).path
+    head, _, slug = path.rstrip("/").rpartition("/")
+    return (head == "problems" or head.endswith("/problems")) and slug in FINAL_PROBLEMS
 
 
 def retry_after(value: str | None) -> float | None:

@@ -1,0 +1,95 @@
+"""A real computation timeout from a live server is final at once: one attempt, no wait.
+
+The service answers a computation that exceeds FAMILYWISE_COMPUTE_TIMEOUT_SECONDS
+with 503, problem type /problems/computation-timeout and Retry-After: 30. The
+request is deterministic (the same body takes as long again), so the client
+must not send it again. Here a second server is started with a time limit of
+one microsecond, which every offloaded computation exceeds (the hop to a
+worker thread alone takes longer); /v1/plan is always offloaded.
+"""
+
+from __future__ import annotations
+
+import asyncio
+import contextlib
+import os
+import subprocess
+import tempfile
+import time
+from collections.abc import Iterator
+
+import httpx
+import pytest
+from client_test_support import READY_TIMEOUT_SECONDS, free_port, server_command
+
+from familywise_client import AsyncClient, Client, FamilywiseConnectionError, FamilywiseError
+
+PLAN = {"k": 4, "power": 0.8, "effect": {"cohens_f": 0.4}}
+
+
+@pytest.fixture(scope="module")
+def impatient_server() -> Iterator[str]:
+    """A familywise server whose time limit every computation exceeds; its base URL."""
+    port = free_port()
+    env = {**os.environ, "FAMILYWISE_COMPUTE_TIMEOUT_SECONDS": "0.000001", "FAMILYWISE_WARM_UP": "0"}
+    env.pop("FAMILYWISE_API_KEYS", None)
+    with tempfile.TemporaryFile() as log:
+        process = subprocess.Popen(server_command(port), stdout=log, stderr=subprocess.STDOUT, env=env)
+        base_url = f"http://127.0.0.1:{port}"
+        try:
+            deadline = time.monotonic() + READY_TIMEOUT_SECONDS
+            while True:
+                if process.poll() is not None:
+                    log.seek(0)
+                    pytest.fail(f"the familywise server exited with {process.returncode}:\n"
+                                f"{log.read().decode(errors='replace')[-3000:]}")
+                with contextlib.suppress(httpx.TransportError):
+                    if httpx.get(f"{base_url}/readyz", timeout=2.0).status_code == 200:
+                        break
+                if time.monotonic() > deadline:
+                    pytest.fail(f"the familywise server was not ready within {READY_TIMEOUT_SECONDS:g} s")
+                time.sleep(0.1)
+            yield base_url
+        finally:
+            process.terminate()
+            try:
+                process.wait(timeout=15)
+            except subprocess.TimeoutExpired:
+                process.kill()
+                process.wait(timeout=15)
+
+
+def test_the_server_answers_a_computation_timeout(impatient_server: str) -> None:
+    """What the client's test relies on: the live answer is the computation-timeout problem with Retry-After."""
+    answer = httpx.post(f"{impatient_server}/v1/plan", json=PLAN, timeout=30.0)
+    assert answer.status_code == 503, answer.text
+    assert answer.headers["content-type"].startswith("application/problem+json")
+    assert answer.json()["type"] == "/problems/computation-timeout"
+    assert answer.headers["retry-after"] == "30"
+
+
+@pytest.mark.parametrize("kind", ["sync", "async"])
+def test_the_client_sends_a_timed_out_request_once(kind: str, impatient_server: str) -> None:
+    sent: list[httpx.Request] = []
+    options = {"retries": 3, "backoff": 0.01, "max_backoff": 0.02, "max_retry_after": 30.0}
+    started = time.monotonic()
+    with pytest.raises(FamilywiseError) as caught:
+        if kind == "sync":
+            with Client(impatient_server, event_hooks={"request": [sent.append]}, **options) as client:
+                client.plan(**PLAN)
+        else:
+            async def record(request: httpx.Request) -> None:
+                sent.append(request)
+
+            async def run() -> None:
+                async with AsyncClient(impatient_server, event_hooks={"request": [record]}, **options) as client:
+                    await client.plan(**PLAN)
+
+            asyncio.run(run())
+    elapsed = time.monotonic() - started
+    assert len(sent) == 1
+    assert elapsed < 10.0  # neither the Retry-After of 30 s nor three attempts
+    error = caught.value
+    assert not isinstance(error, FamilywiseConnectionError)
+    assert (error.status, error.problem_type, error.rule) == (
+        503, "/problems/computation-timeout", "compute_timeout_seconds")
