@@ -140,6 +140,41 @@ TOUR: list[dict[str, Any]] = [
 ]
 
 
+def _plate_export(plate: dict) -> str:
+    """The plate as a reader's long-format export: one line per well."""
+    lines = ["buffer,activity"] + [f"{g['label']},{v}" for g in plate["groups"] for v in g["values"]]
+    return "\n".join(lines) + "\n"
+
+
+#: The same unbalanced plate as a CSV file from the instrument (the "Input from instruments" section).
+CSV_EXAMPLE = {
+    "title": "The same from an instrument's CSV export", "path": "/v1/followup/control",
+    "file": "plate-0412.csv", "csv": _plate_export(examples.UNBALANCED_PLATE),
+    "query": "?group_column=buffer&value_column=activity&control=reference%20buffer",
+    "text": "A CSV body (long format: a group column and a value column, named in the query string with "
+            "the other request fields), here the unbalanced plate's export, `plate-0412.csv`:",
+    "trim": "Shown: the family fields and the summary (the same answer as the JSON request above).",
+    "excerpt": lambda r: _pick(r, "family", "method", "error_rate", "critical_value", "summary"),
+}
+
+
+def _render_csv(client, entry: dict) -> str:
+    response = client.post(entry["path"] + entry["query"], content=entry["csv"].encode(),
+                           headers={"content-type": "text/csv"})
+    if response.status_code != 200:
+        raise RuntimeError(f"{entry['path']} (CSV): {response.status_code} {response.text}")
+    excerpt = entry["excerpt"](response.json())
+    shown = entry["csv"].splitlines()
+    file_text = "\n".join([*shown[:4], "...", *shown[-2:]])
+    return (
+        f"### {entry['title']}: `POST {entry['path']}`\n\n{entry['text']}\n\n"
+        f"```text\n{file_text}\n```\n\n"
+        f"```sh\ncurl -s -X POST 'http://127.0.0.1:8000{entry['path']}{entry['query']}' "
+        f"-H 'content-type: text/csv' --data-binary @{entry['file']}\n```\n\n"
+        f"{entry['trim']}\n\n```json\n{json.dumps(excerpt, indent=2, ensure_ascii=False)}\n```\n"
+    )
+
+
 def render(client) -> str:
     parts = []
     for entry in TOUR:
@@ -154,6 +189,8 @@ def render(client) -> str:
             f"-H 'content-type: application/json' -d '{body}'\n```\n\n"
             f"{entry['trim']}\n\n```json\n{json.dumps(excerpt, indent=2, ensure_ascii=False)}\n```\n"
         )
+        if entry["path"] == CSV_EXAMPLE["path"]:
+            parts.append(_render_csv(client, CSV_EXAMPLE))
     return "\n".join(parts)
 
 

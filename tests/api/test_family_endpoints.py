@@ -51,11 +51,33 @@ def test_every_pairwise_method_answers(client, method) -> None:
 
 
 def test_protected_lsd_without_a_significant_omnibus_declares_nothing(client) -> None:
+    # Fisher (1935): no pair is declared unless the omnibus F test rejects; the
+    # F p-value from scipy.stats.f_oneway. Each p-value is max(p_F, p_pair),
+    # so p, significant and the (absent) intervals cannot disagree.
     flat = {"groups": [{"label": "a", "values": [1.0, 2.0, 3.0]}, {"label": "b", "values": [1.5, 2.5, 3.1]},
                        {"label": "c", "values": [1.2, 2.2, 2.9]}], "method": "lsd", "protected": True}
     body = client.post("/v1/followup/pairwise", json=flat).json()
+    p_f = stats.f_oneway(*[np.array(g["values"]) for g in flat["groups"]]).pvalue
+    assert p_f > 0.05
     assert not any(r["significant"] for r in body["comparisons"])
+    assert all(r["p_value"] >= p_f - 1e-12 and r["p_value"] >= 0.05 for r in body["comparisons"])
+    assert body["interval"] == "none" and body["critical_value"] is None
+    assert all(r["ci_low"] is None and r["ci_high"] is None for r in body["comparisons"])
     assert any("Protected LSD" in n for n in body["notes"])
+
+
+def test_protected_lsd_after_a_significant_omnibus_agrees_with_its_intervals(client) -> None:
+    # The buffer plate's F test is significant (scipy.stats.f_oneway); then the
+    # protected LSD declares what the LSD declares, with its t intervals, and
+    # every row's interval excludes zero exactly when p < alpha.
+    groups = [np.array(g["values"]) for g in PLATE["groups"]]
+    assert stats.f_oneway(*groups).pvalue < 0.05
+    body = _post(client, "pairwise", method="lsd", protected=True).json()
+    plain = _post(client, "pairwise", method="lsd").json()
+    assert body["interval"] == "per_comparison"
+    for row, unprotected in zip(body["comparisons"], plain["comparisons"], strict=True):
+        assert (row["ci_low"] > 0 or row["ci_high"] < 0) == row["significant"] == (row["p_value"] < 0.05)
+        assert row["significant"] == unprotected["significant"]
 
 
 def test_control_rows_and_one_sided_intervals(client) -> None:
@@ -70,14 +92,49 @@ def test_control_rows_and_one_sided_intervals(client) -> None:
     assert all(r["ci_low"] is None and r["critical_value"] for r in stepdown["comparisons"])
 
 
+def _hsu_candidates(groups, labels, highest=True, alpha=0.05) -> list[str]:
+    """The groups that may be best, from Hsu's (1996, ch. 4) definition:
+    group i stays a candidate when min_j (m_i - m_j + d_i se_ij) > 0, d_i
+    the one-sided many-to-one quantile with i as reference. The decision is
+    settled here without computing d_i: d_i lies between the one-sided
+    t quantile at alpha (one rival; scipy.stats.t) and the Bonferroni
+    quantile at alpha / (k - 1) (the union bound), and the data must give the
+    same decision at both ends, otherwise this derivation refuses to decide."""
+    sign = 1.0 if highest else -1.0
+    m = sign * np.array([g.mean() for g in groups])
+    n = np.array([g.size for g in groups], dtype=float)
+    k, df = len(groups), int(n.sum()) - len(groups)
+    s = np.sqrt(sum(((g - g.mean()) ** 2).sum() for g in groups) / df)
+    d_low, d_high = stats.t.isf(alpha, df), stats.t.isf(alpha / (k - 1), df)
+    out = []
+    for i in range(k):
+        gaps = [(m[i] - m[j], s * np.sqrt(1 / n[i] + 1 / n[j])) for j in range(k) if j != i]
+        at_low = min(g + d_low * se for g, se in gaps) > 0
+        at_high = min(g + d_high * se for g, se in gaps) > 0
+        assert at_low == at_high, f"{labels[i]}: the bounds on d_i do not settle the decision"
+        if at_low:
+            out.append(labels[i])
+    return out
+
+
 def test_best_reports_the_candidate_set(client) -> None:
+    groups = [np.array(g["values"]) for g in UNBALANCED["groups"]]
+    labels = [g["label"] for g in UNBALANCED["groups"]]
     body = client.post("/v1/followup/best", json={**UNBALANCED, "best": "highest"}).json()
-    assert body["best_set"] == ["HEPES pH 7.5"]
+    assert body["best_set"] == _hsu_candidates(groups, labels, highest=True)  # == ["HEPES pH 7.5"]
     assert all(r["second"] == "best of others" for r in body["comparisons"])
     assert [r["may_be_best"] for r in body["comparisons"]] == [r["first"] in body["best_set"]
                                                                for r in body["comparisons"]]
     lowest = client.post("/v1/followup/best", json={**UNBALANCED, "best": "lowest"}).json()
-    assert lowest["best_set"] == ["citrate pH 6.0"]
+    assert lowest["best_set"] == _hsu_candidates(groups, labels, highest=False)  # == ["citrate pH 6.0"]
+
+
+@pytest.mark.parametrize("fields", [{"method": "lsd", "protected": True}, {"method": "lsd", "protected": False},
+                                    {"method": "tukey_kramer", "protected": False},
+                                    {"method": "dunn", "dunn_adjustment": "none"}])
+def test_options_of_the_chosen_method_are_accepted(client, fields) -> None:
+    # protected false asks for nothing another method would not do; the refusals are above
+    assert _post(client, "pairwise", **fields).status_code == 200
 
 
 def test_contrasts_with_every_adjustment(client) -> None:
@@ -97,6 +154,13 @@ REFUSALS = [
      "/groups", "zero-variance"),
     ("pairwise", {**PLATE, "method": "dunnett"}, "/method", "literal_error"),
     ("pairwise", {**PLATE, "protected": "yes"}, "/protected", "bool_type"),
+    # an option of another method is refused, not ignored (design.md: nothing silently dropped)
+    ("pairwise", {**PLATE, "method": "tukey_kramer", "protected": True}, "/protected", "contradiction"),
+    ("pairwise", {**PLATE, "protected": True}, "/protected", "contradiction"),
+    ("pairwise", {**PLATE, "method": "dunn", "protected": True}, "/protected", "contradiction"),
+    ("pairwise", {**PLATE, "method": "tukey_kramer", "dunn_adjustment": "none"}, "/dunn_adjustment",
+     "contradiction"),
+    ("pairwise", {**PLATE, "method": "lsd", "dunn_adjustment": "holm"}, "/dunn_adjustment", "contradiction"),
     ("pairwise", {"groups": [{"label": "a", "values": [1.0]}, {"label": "b", "values": [2.0, 3.0]}],
                   "method": "games_howell"}, "/groups", "group-size"),
     ("control", {**PLATE, "control": "no such buffer"}, "/control", "unknown-group"),

@@ -31,7 +31,7 @@ from decimal import Decimal
 from typing import Any
 
 import pytest
-from hypothesis import HealthCheck, given, settings
+from hypothesis import HealthCheck, assume, given, settings
 from hypothesis import strategies as st
 
 EXAMPLES = int(os.environ.get("FAMILYWISE_PROPERTY_EXAMPLES", "50"))
@@ -71,6 +71,11 @@ OPERATIONS = [
 ]
 #: The operations whose answers do not depend on location (the relative equivalence margin does).
 SHIFT_FREE = [op for op in OPERATIONS if op[0] != "/v1/followup/equivalence"]
+
+
+def accepted(path: str, alpha: float) -> bool:
+    """Equivalence refuses alpha >= 0.5 (a 422 of its own, tested in test_equivalence_endpoint.py)."""
+    return not (path == "/v1/followup/equivalence" and alpha >= 0.5)
 
 
 # --------------------------------------------------------------------------
@@ -230,6 +235,7 @@ def assert_family_scaled(f0: dict, f1: dict, factor: float, alpha: float) -> Non
 @given(groups=layouts(), shift=shifts, alpha=st.sampled_from(ALPHAS), operation=st.sampled_from(SHIFT_FREE))
 def test_shift_changes_only_the_location(client, groups, shift, alpha, operation) -> None:
     path, extra = operation
+    assume(accepted(path, alpha))
     a0 = post(client, path, body(groups, extra, alpha))
     a1 = post(client, path, body(transformed(groups, shift=shift), extra, alpha))
     for f0, f1 in zip(families(a0), families(a1), strict=True):
@@ -248,6 +254,7 @@ def test_shift_changes_only_the_location(client, groups, shift, alpha, operation
 @given(groups=layouts(), factor=factors, alpha=st.sampled_from(ALPHAS), operation=st.sampled_from(OPERATIONS))
 def test_positive_scale_changes_only_the_units(client, groups, factor, alpha, operation) -> None:
     path, extra = operation
+    assume(accepted(path, alpha))
     a0 = post(client, path, body(groups, extra, alpha))
     a1 = post(client, path, body(transformed(groups, factor=factor), extra, alpha))
     for f0, f1 in zip(families(a0), families(a1), strict=True):
@@ -305,6 +312,7 @@ REORDER_OPERATIONS = [op for op in OPERATIONS if op[0] in ("/v1/followup/pairwis
        operation=st.sampled_from(REORDER_OPERATIONS))
 def test_reordering_groups_or_values_changes_only_the_order(client, groups, seed, alpha, operation) -> None:
     path, extra = operation
+    assume(accepted(path, alpha))
     rng = random.Random(seed)
     labels = [g["label"] for g in groups]
     shuffled = [{"label": g["label"], "values": rng.sample(g["values"], len(g["values"]))} for g in groups]
@@ -381,6 +389,7 @@ def _p_values(obj: Any, path: str = ""):
 @given(groups=layouts(), alpha=st.sampled_from(ALPHAS), operation=st.sampled_from(OPERATIONS))
 def test_p_values_intervals_and_adjustments(client, groups, alpha, operation) -> None:
     path, extra = operation
+    assume(accepted(path, alpha))
     answer = post(client, path, body(groups, extra, alpha))
     for where, p in _p_values(without_provenance(answer)):
         assert 0.0 <= p <= 1.0, (where, p)

@@ -18,3 +18,14 @@ def test_set_up_commands_and_cautions() -> None:
     commands = [line.split("#")[0].strip() for line in setup.splitlines() if line.startswith("    make")]
     assert commands == ["make run", "make test"]
     assert "does not replace, a qualified statistician" in readme
+
+
+def test_the_csv_example_answers_as_its_json_twin(client) -> None:
+    """The tour's CSV request (the unbalanced plate as an instrument export) gives the very answer of the
+    JSON request beside it, provenance aside (the canonical request is the same, so even its hash is)."""
+    twin = next(entry for entry in tour.TOUR if entry["path"] == tour.CSV_EXAMPLE["path"])
+    as_json = client.post(twin["path"], json=twin["body"])
+    as_csv = client.post(tour.CSV_EXAMPLE["path"] + tour.CSV_EXAMPLE["query"],
+                         content=tour.CSV_EXAMPLE["csv"].encode(), headers={"content-type": "text/csv"})
+    assert as_json.status_code == as_csv.status_code == 200, as_csv.text
+    assert as_csv.json() == as_json.json()

@@ -330,11 +330,13 @@ def _equivalence(q: Question, labels, alpha):
         choice = Choice("equivalence", "dunnett_tost", options)
         reasons = ["Showing that candidates are practically the same as a reference needs an equivalence "
                    "test: failing to find a difference is not evidence of sameness.",
-                   "Familywise error over all candidates: Dunnett's one-sided critical value for each "
-                   "of the two one-sided tests."]
+                   "Familywise error over all candidates: the two one-sided tests of every candidate share "
+                   "one critical value from the many-to-one t, the largest over the ways the candidates "
+                   "that are not equivalent may lie above or below the margin, so that the guarantee holds "
+                   "in every configuration."]
         alternatives = [Choice("equivalence", "bonferroni_tost", options,
-                               "when candidates that are not equivalent may lie on both sides of the margin "
-                               "and the familywise guarantee must hold in every configuration"),
+                               "when a simpler, slightly more conservative familywise rule is wanted (the "
+                               "critical value of Bonferroni's inequality, which needs no distribution code)"),
                         Choice("equivalence", "tost", options, "for one candidate, or per-candidate error")]
     else:
         choice = Choice("equivalence", "tost", options)

@@ -745,7 +745,14 @@ def table_log_sf(table, w):
 
 @njit(cache=True)
 def table_quantile(table, log_alpha, lo, hi):
-    """w with L(w) = log alpha at nu = infinity, by bisection on the table."""
+    """w with L(w) = log alpha at nu = infinity, by bisection on the table
+    within [lo, hi]: first bracketed by doubling from lo + 1, so that the
+    search reads the table no further out than the quantile needs (its far
+    panels are filled only on first use)."""
+    step = 1.0
+    while lo + step < hi and table_log_sf(table, lo + step) > log_alpha:
+        lo, step = lo + step, 2.0 * step
+    hi = min(hi, lo + step)
     for _ in range(200):
         mid = 0.5 * (lo + hi)
         if table_log_sf(table, mid) > log_alpha:

@@ -18,12 +18,28 @@ On it, theta_b - theta_l < m_b - m_l + d_b se_bl gives the upper bounds (for
 i != b the parameter is <= 0 <= D_i+), b lies in G, and theta_i - theta_b >
 m_i - m_b - d_b se_ib gives the lower bounds over the candidates j in G.
 
-Rows: ``first`` the group, ``second`` "best of others", ``difference`` =
-m_i - max_{j != i} m_j, ``statistic`` = min_{j != i} (m_i - m_j) / se_ij (the
-standardised gap to the strongest rival), ``critical_value`` = d_i,
-``p_value`` = P(max_l T_l >= -statistic) for the many-to-one with group i as
-reference: the smallest alpha at which group i is excluded from the best
-(``significant``, i.e. ``may_be_best`` false).
+Rows: ``first`` the group, ``second`` "best of others", and
+
+* ``difference`` = m_i - m_r and ``se`` = se_ir, against the rival r with
+  the highest mean among the others (the "best of the others" by mean);
+* ``statistic`` = min_{j != i} (m_i - m_j) / se_ij, the smallest standardised
+  gap, which decides the exclusion. With equal sizes every se_ij is the same
+  and the minimum is at r, so statistic = difference / se. With unequal
+  sizes it can be at another rival j (a lower mean but a smaller se_ij, from
+  a larger n_j), and then statistic != difference / se;
+* ``critical_value`` = d_i, the row's own quantile (the lambdas depend on
+  n_i). The interval is Hsu's constrained [D_i-, D_i+] above, not
+  difference +- d_i se: its upper end comes from the minimum over all
+  rivals of m_i - m_j + d_i se_ij and is cut at 0, its lower end from the
+  candidates' own d_j;
+* ``p_value`` = P(max_l T_l >= -statistic) for the many-to-one with group i
+  as reference: the smallest alpha at which group i is excluded from the
+  best (``significant``, i.e. ``may_be_best`` false). Group i is excluded
+  exactly when -statistic > d_i, that is when D_i+ = 0, so ``significant``
+  agrees with both the p-value and the interval.
+
+The family's ``critical_value`` is the common d when all sizes are equal
+(then every d_i is the same) and null otherwise, each row carrying its own.
 
 Reference
 ---------
