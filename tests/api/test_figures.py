@@ -226,6 +226,20 @@ def test_stepwise_methods_are_refused_not_drawn_empty(client, request_fields, po
     assert "gives decisions, not intervals" in problem["detail"] and "choose " in problem["detail"]
 
 
+def test_protected_lsd_without_a_significant_f_has_nothing_to_draw(client) -> None:
+    """Fisher's protected LSD declares nothing, and gives no intervals, when the omnibus F test is not
+    significant: the figure is refused with the reason, not drawn empty. (Invented wells whose means
+    differ by far less than their spread.)"""
+    flat = {"groups": [{"label": "well A", "values": [40.1, 43.9, 41.7, 42.8]},
+                       {"label": "well B", "values": [41.5, 42.2, 43.6, 40.4]},
+                       {"label": "well C", "values": [42.9, 40.7, 41.1, 43.3]}]}
+    response = client.post(DIFFERENCES, json={**flat, "family": "pairwise", "method": "lsd", "protected": True})
+    assert response.status_code == 422, response.text
+    problem = response.json()
+    assert problem["rule"] == "figure-needs-intervals" and problem["pointer"] == "/method"
+    assert "not significant" in problem["detail"]
+
+
 def test_the_family_options_are_the_follow_up_endpoints_own(client) -> None:
     plate = examples.BUFFER_PLATE
     foreign = client.post(DIFFERENCES, json={**plate, "family": "best", "method": "tukey_kramer"}).json()

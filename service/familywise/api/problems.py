@@ -8,6 +8,7 @@ failures list every offending field under ``errors``.
 
 from __future__ import annotations
 
+import re
 from dataclasses import dataclass, field
 from typing import Any
 
@@ -111,16 +112,27 @@ def _child(node: Any, key: Any) -> Any:
     return _MISSING
 
 
-def _union_member_step(location: list[Any], body: Any, error_type: str) -> tuple[int, Any] | None:
+_FUNCTION_TAG = re.compile(r"^function-(plain|before|after|wrap)\[.*\]$")
+
+
+def _union_member_step(location: list[Any], body: Any) -> tuple[int, Any] | None:
     """Where pydantic put the name of a union's member in an error location
     ("function-plain[_number()]", "RelativeMargin": a step that names nothing
-    in the body), with the value the caller sent there; None if no such step."""
+    in the body), with the value the caller sent there; None if no such step.
+
+    A step absent from the body is a member's name when the value there is
+    not an object (it has no keys), when more steps follow it, or when it has
+    the form of pydantic's name for a validator function; a last step absent
+    from an object is that object's missing (or defaulted) field.
+    """
     node = body
     for position, key in enumerate(location):
         child = _child(node, key)
         if child is _MISSING:
-            missing_field = position == len(location) - 1 and error_type == "missing"
-            if isinstance(key, str) and not missing_field:
+            if not isinstance(key, str):
+                return None
+            last = position == len(location) - 1
+            if not isinstance(node, dict) or not last or _FUNCTION_TAG.match(key):
                 return position, node
             return None
         node = child
@@ -149,7 +161,7 @@ def validation_problem(errors: list[dict[str, Any]], prefix: str = "", body: Any
         if location and location[0] == "body":
             location = location[1:]
         error_type = err.get("type", "invalid")
-        step = _union_member_step(location, body, error_type) if in_body and isinstance(body, dict) else None
+        step = _union_member_step(location, body) if in_body and isinstance(body, dict) else None
         if step is not None:
             position, sent = step
             from_object_member = position < len(location) - 1 or error_type in _OBJECT_EXPECTED

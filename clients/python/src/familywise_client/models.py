@@ -127,7 +127,7 @@ class AnalysisRequest(RequestModel):
     groups: list[Group] = Field(description="Two or more groups of measurements.")
     alpha: Number = Field(
         default=0.05,
-        description="Error rate of the family (or level of each test): 0 < alpha <= 0.5.",
+        description="Error rate of the family (or level of each test): 1e-10 <= alpha <= 0.5.",
     )
     question: Question | None = Field(default=None, description="Defaults to all pairs, familywise.")
     followup: FollowupChoice | None = Field(default=None, description="Override the recommended family and method.")
@@ -205,7 +205,7 @@ class BestRequest(RequestModel):
     groups: list[Group] = Field(description="Two or more groups of measurements.")
     alpha: Number = Field(
         default=0.05,
-        description="Error rate of the family (or level of each test): 0 < alpha <= 0.5.",
+        description="Error rate of the family (or level of each test): 1e-10 <= alpha <= 0.5.",
     )
     best: Literal["highest", "lowest"] = Field(
         default="highest",
@@ -228,20 +228,50 @@ class ComparisonOut(ResponseModel):
     first: str | None = Field(description="The group compared (treatment; the group itself for 'best').")
     second: str | None = Field(description="The group or reference it is compared with.")
     name: str | None = Field(default=None, description="Contrast name (contrasts family only).")
-    difference: float = Field(description="mean(first) - mean(second), or the contrast's estimate.")
-    se: float | None = Field(description="Standard error of the difference.")
-    statistic: float
+    difference: float = Field(
+        description=(
+            "mean(first) - mean(second), or the contrast's estimate. best: the group's mean minus the highest (lowest) "
+            "mean among the others."
+        ),
+    )
+    se: float | None = Field(description="Standard error of the difference (best: of the difference to that rival).")
+    statistic: float = Field(
+        description=(
+            "The standardised difference behind p_value (t, z or q / sqrt 2, by method). best: the smallest "
+            "standardised gap min_j (mean_i - mean_j) / se_ij over all the other groups (for lowest, of mean_j - "
+            "mean_i), which decides the exclusion; with unequal sizes it can be against a different rival than "
+            "difference and se, so it need not equal difference / se."
+        ),
+    )
     df: float | None
-    p_value: float = Field(description="p-value adjusted for the family.")
-    unadjusted_p_value: float | None = None
+    p_value: float = Field(
+        description=(
+            "p-value adjusted for the family; significant is p_value < alpha. Protected lsd: the larger of the pair's "
+            "t-test p-value and the omnibus p-value."
+        ),
+    )
+    unadjusted_p_value: float | None = Field(default=None, description="The comparison's own p-value, unadjusted.")
     ci_low: float | None = Field(description="Interval lower end; null when none or unbounded.")
-    ci_high: float | None = Field(description="Interval upper end; null when none or unbounded.")
+    ci_high: float | None = Field(
+        description=(
+            "Interval upper end; null when none or unbounded. Where intervals are given, an interval excludes zero "
+            "exactly when significant. best: Hsu's constrained interval, cut at 0, not difference +- critical_value * "
+            "se."
+        ),
+    )
     significant: bool
-    critical_value: float | None = Field(default=None, description="Row's own multiplier where it has one.")
+    critical_value: float | None = Field(
+        default=None,
+        description=(
+            "Row's own multiplier where it has one (games_howell: the quantile at the row's df; best: Hsu's d_i for "
+            "this group's sizes, which with the rivals' d_j and the rule of the constrained interval gives ci_low and "
+            "ci_high, not a half-width over se)."
+        ),
+    )
     ss: float | None = None
     f: float | None = None
     rank_difference: float | None = None
-    may_be_best: bool | None = None
+    may_be_best: bool | None = Field(default=None, description="best: the group can be the best (not significant).")
     p_lower: float | None = Field(default=None, description="Equivalence: p-value of the lower one-sided test.")
     p_upper: float | None = Field(default=None, description="Equivalence: p-value of the upper one-sided test.")
     equivalent: bool | None = None
@@ -308,7 +338,7 @@ class ContrastValidationRequest(RequestModel):
     standard: StandardIn | None = Field(default=None, description="A standard set to generate as well.")
     alpha: Number = Field(
         default=0.05,
-        description="Error rate of the family (or level of each test): 0 < alpha <= 0.5.",
+        description="Error rate of the family (or level of each test): 1e-10 <= alpha <= 0.5.",
     )
 
 
@@ -335,7 +365,7 @@ class ContrastsRequest(RequestModel):
     groups: list[Group] = Field(description="Two or more groups of measurements.")
     alpha: Number = Field(
         default=0.05,
-        description="Error rate of the family (or level of each test): 0 < alpha <= 0.5.",
+        description="Error rate of the family (or level of each test): 1e-10 <= alpha <= 0.5.",
     )
     contrasts: list[Contrast]
     adjustment: Literal[
@@ -361,7 +391,7 @@ class ControlRequest(RequestModel):
     groups: list[Group] = Field(description="Two or more groups of measurements.")
     alpha: Number = Field(
         default=0.05,
-        description="Error rate of the family (or level of each test): 0 < alpha <= 0.5.",
+        description="Error rate of the family (or level of each test): 1e-10 <= alpha <= 0.5.",
     )
     control: StrictStr = Field(description="Label of the control (reference) group.")
     method: Literal["dunnett", "dunnett_stepdown"] = Field(
@@ -400,7 +430,7 @@ class DifferencesFigureRequest(RequestModel):
     groups: list[Group] = Field(description="Two or more groups of measurements.")
     alpha: Number = Field(
         default=0.05,
-        description="Error rate of the family (or level of each test): 0 < alpha <= 0.5.",
+        description="Error rate of the family (or level of each test): 1e-10 <= alpha <= 0.5.",
     )
     family: Literal["pairwise", "control", "best", "contrasts"] = Field(
         description=(
@@ -496,7 +526,10 @@ class EquivalenceRequest(RequestModel):
     groups: list[Group] = Field(description="Two or more groups of measurements.")
     alpha: Number = Field(
         default=0.05,
-        description="Error rate of the family (or level of each test): 0 < alpha <= 0.5.",
+        description=(
+            "Error rate of each one-sided test (familywise for dunnett_tost and bonferroni_tost): 1e-10 <= alpha < "
+            "0.5. Two-sided equivalence intervals have level 1 - 2 alpha."
+        ),
     )
     reference: StrictStr = Field(description="Label of the reference group.")
     margin: Number | RelativeMargin = Field(
@@ -508,13 +541,15 @@ class EquivalenceRequest(RequestModel):
     kind: Literal["equivalence", "non_inferiority", "non_superiority"] = Field(
         default="equivalence",
         description=(
-            "equivalence (both sides), non_inferiority (not worse than reference by more than the margin), "
-            "non_superiority."
+            "equivalence (within the margin on both sides), non_inferiority (the candidate's mean is not lower than "
+            "the reference's by the margin or more), non_superiority (not higher by the margin or more)."
         ),
     )
     method: Literal["dunnett_tost", "bonferroni_tost", "tost"] = Field(
         default="dunnett_tost",
-        description="dunnett_tost (simultaneous, familywise), bonferroni_tost, tost (per comparison).",
+        description=(
+            "dunnett_tost (simultaneous, familywise in every configuration), bonferroni_tost, tost (per comparison)."
+        ),
     )
 
 
@@ -537,7 +572,9 @@ class FamilyResponse(ResponseModel):
     critical_value: float | None = Field(
         description=(
             "Multiplier of each comparison's se giving its interval, on the scale of statistic; null where the method "
-            "has none or rows have their own."
+            "has none (stepwise methods, dunn, protected lsd after a non-significant omnibus test) or rows have their "
+            "own (games_howell; best with unequal group sizes, where each row's d_i differs; with equal sizes best "
+            "gives the common d, which with Hsu's constraint gives the intervals rather than multiplying se)."
         ),
     )
     comparisons: list[ComparisonOut]
@@ -571,7 +608,9 @@ class FamilyResult(ResponseModel):
     critical_value: float | None = Field(
         description=(
             "Multiplier of each comparison's se giving its interval, on the scale of statistic; null where the method "
-            "has none or rows have their own."
+            "has none (stepwise methods, dunn, protected lsd after a non-significant omnibus test) or rows have their "
+            "own (games_howell; best with unequal group sizes, where each row's d_i differs; with equal sizes best "
+            "gives the common d, which with Hsu's constraint gives the intervals rather than multiplying se)."
         ),
     )
     comparisons: list[ComparisonOut]
@@ -621,7 +660,14 @@ class FollowupChoice(RequestModel):
     """An explicit follow-up instead of the recommended one (fields as the family's endpoint takes them)."""
 
     family: Literal["pairwise", "control", "best", "contrasts", "equivalence"]
-    method: StrictStr | None = None
+    method: StrictStr | None = Field(
+        default=None,
+        description=(
+            "The family's method as its endpoint names it. For contrasts it is the adjustment (give method or "
+            "adjustment, or the same in both); for best only hsu_mcb. Options that do not apply to the method "
+            "(dunn_adjustment without dunn, protected without lsd) are refused, not ignored."
+        ),
+    )
     control: StrictStr | None = None
     alternative: Literal["two_sided", "greater", "less"] | None = None
     best: Literal["highest", "lowest"] | None = None
@@ -697,7 +743,7 @@ class MeansFigureRequest(RequestModel):
     groups: list[Group] = Field(description="Two or more groups of measurements.")
     alpha: Number = Field(
         default=0.05,
-        description="Error rate of the family (or level of each test): 0 < alpha <= 0.5.",
+        description="Error rate of the family (or level of each test): 1e-10 <= alpha <= 0.5.",
     )
     interval: Literal["group", "pooled"] = Field(
         default="group",
@@ -743,7 +789,7 @@ class OmnibusRequest(RequestModel):
     groups: list[Group] = Field(description="Two or more groups of measurements.")
     alpha: Number = Field(
         default=0.05,
-        description="Error rate of the family (or level of each test): 0 < alpha <= 0.5.",
+        description="Error rate of the family (or level of each test): 1e-10 <= alpha <= 0.5.",
     )
 
 
@@ -781,7 +827,7 @@ class PairwiseRequest(RequestModel):
     groups: list[Group] = Field(description="Two or more groups of measurements.")
     alpha: Number = Field(
         default=0.05,
-        description="Error rate of the family (or level of each test): 0 < alpha <= 0.5.",
+        description="Error rate of the family (or level of each test): 1e-10 <= alpha <= 0.5.",
     )
     method: Literal[
         "tukey_kramer",
@@ -802,12 +848,18 @@ class PairwiseRequest(RequestModel):
     protected: StrictBool = Field(
         default=False,
         description=(
-            "lsd only: Fisher's protected LSD, declaring nothing unless the omnibus F test is significant at alpha."
+            "lsd only (true with any other method is refused): Fisher's protected LSD, declaring a pair different only "
+            "when the omnibus F test is significant at alpha as well. Each p-value is then the larger of the pair's "
+            "t-test p-value and the omnibus p-value; when the F test is not significant no pair is declared and no "
+            "intervals are given."
         ),
     )
     dunn_adjustment: Literal["holm", "bonferroni", "sidak", "benjamini_hochberg", "none"] = Field(
         default="holm",
-        description="dunn only: the p-value adjustment.",
+        description=(
+            "dunn only (refused with any other method, even as holm, which would not be applied): the p-value "
+            "adjustment."
+        ),
     )
 
 
@@ -817,7 +869,7 @@ class PlanRequest(RequestModel):
     k: Integer = Field(description="Number of groups.")
     alpha: Number = Field(
         default=0.05,
-        description="Error rate of the family (or level of each test): 0 < alpha <= 0.5.",
+        description="Error rate of the family (or level of each test): 1e-10 <= alpha <= 0.5.",
     )
     power: Number = Field(description="Target power, between alpha and 1 (for example 0.8).")
     effect: Effect = Field(description="Cohen's f, or the means and SD (for a family: the SD).")
@@ -829,7 +881,13 @@ class PlanRequest(RequestModel):
         default=None,
         description="The family's method (the default of the family when omitted).",
     )
-    difference: Number | None = Field(default=None, description="Family: the true difference to detect.")
+    difference: Number | None = Field(
+        default=None,
+        description=(
+            "Family: the size of the true difference to detect (positive; for a one-sided comparison with a control, "
+            "in the direction of the alternative)."
+        ),
+    )
     alternative: Literal["two_sided", "greater", "less"] = Field(
         default="two_sided",
         description="Family control: one- or two-sided.",
@@ -893,7 +951,10 @@ class Question(RequestModel):
     )
     alternative: Literal["two_sided", "greater", "less"] = Field(
         default="two_sided",
-        description="Reference = control: one- or two-sided.",
+        description=(
+            "Reference = control, goal differences, familywise error: one- or two-sided (Dunnett). A one-sided "
+            "alternative with another goal or error rate is refused."
+        ),
     )
     error_rate: Literal["familywise", "per_comparison", "false_discovery"] = Field(
         default="familywise",
@@ -910,7 +971,10 @@ class Question(RequestModel):
     )
     margin: Number | RelativeMargin | None = Field(
         default=None,
-        description="Goal equivalence: the margin (absolute, or {\"relative\": fraction}).",
+        description=(
+            "Goal equivalence: the margin, a positive number in data units, or {\"relative\": positive fraction of the "
+            "reference mean's magnitude}."
+        ),
     )
 
 
@@ -925,7 +989,7 @@ class RecommendationRequest(RequestModel):
     )
     alpha: Number = Field(
         default=0.05,
-        description="Error rate of the family (or level of each test): 0 < alpha <= 0.5.",
+        description="Error rate of the family (or level of each test): 1e-10 <= alpha <= 0.5.",
     )
 
 

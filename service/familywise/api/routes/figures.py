@@ -224,8 +224,10 @@ async def differences_figure_endpoint(
     _check_rows(rows, "/contrasts" if request.family == "contrasts" else "/groups",
                 f"the {request.family} comparisons of this request")
     result = operations.compute_family(follow)
-    if result.interval == "none":  # pragma: no cover - every such method is refused above
-        _refuse_stepwise(request.family, result.method)
+    if result.interval == "none":  # the protected LSD after a non-significant F test
+        detail = ("no intervals to draw: " + (result.notes[-1] if result.notes else
+                                              f"{result.method} gave no intervals for these data"))
+        raise ProblemError("unanalysable-data", detail, pointer="/method", rule="figure-needs-intervals")
     text = _text(request, "/v1/figures/differences")
     return figure_response(lambda fmt: figures.differences_figure(result, text=text, fmt=fmt),
                            f"familywise-differences-{request.family}")
