@@ -50,6 +50,7 @@ from __future__ import annotations
 import string
 from collections.abc import Sequence
 from dataclasses import dataclass
+from functools import lru_cache
 
 import numpy as np
 from numba import njit
@@ -367,7 +368,23 @@ def letter_sets(different: np.ndarray, order: Sequence[int]) -> list[list[int]] 
     letters ordered along ``order``; None when more than MAX_COLUMNS letters
     were needed while the display was built."""
     different = np.ascontiguousarray(different, dtype=np.bool_)
-    rows = _insert_absorb(different, MAX_COLUMNS)
+    if different.shape[0] <= EXACT_MAX_GROUPS:
+        # Few groups have few decision patterns, and a laboratory's plates repeat them: the
+        # exact search is remembered per pattern (a pure function of it; a bounded cache).
+        sets = _few_group_sets(different.tobytes(), different.shape[0], tuple(order))
+        return None if sets is None else [list(members) for members in sets]
+    return _letter_sets(different, order)
+
+
+@lru_cache(maxsize=4096)
+def _few_group_sets(pattern: bytes, k: int, order: tuple[int, ...]) -> tuple[tuple[int, ...], ...] | None:
+    different = np.frombuffer(pattern, dtype=np.bool_).reshape(k, k)
+    sets = _letter_sets(different, order)
+    return None if sets is None else tuple(tuple(members) for members in sets)
+
+
+def _letter_sets(different: np.ndarray, order: Sequence[int]) -> list[list[int]] | None:
+    rows = _insert_absorb(np.ascontiguousarray(different), MAX_COLUMNS)
     if rows.shape[0] == 0:
         return None
     masks = _to_ints(rows)
