@@ -109,3 +109,16 @@ def test_the_process_pool_gives_the_same_bytes_as_inline() -> None:
     from_inline = inline.post("/v1/batch", json={"items": items})
     assert from_pool.status_code == from_inline.status_code == 200
     assert from_pool.json()["results"] == from_inline.json()["results"]
+
+
+@pytest.mark.parametrize(("text", "cpus"), [("max 100000\n", None), ("200000 100000\n", 2), ("150000 100000\n", 2),
+                                             ("50000 100000\n", 1), ("garbage\n", None)])
+def test_the_pool_follows_a_container_cpu_quota(tmp_path, text, cpus) -> None:
+    """cgroup v2 cpu.max is "<quota> <period>" or "max <period>" (Linux kernel documentation,
+    admin-guide/cgroup-v2, "cpu.max")."""
+    from familywise.api.batch import cpu_quota
+
+    path = tmp_path / "cpu.max"
+    path.write_text(text, encoding="ascii")
+    assert cpu_quota(str(path)) == cpus
+    assert cpu_quota(str(tmp_path / "absent")) is None

@@ -29,3 +29,19 @@ def test_the_csv_example_answers_as_its_json_twin(client) -> None:
                          content=tour.CSV_EXAMPLE["csv"].encode(), headers={"content-type": "text/csv"})
     assert as_json.status_code == as_csv.status_code == 200, as_csv.text
     assert as_csv.json() == as_json.json()
+
+
+def test_the_validation_report_shown_is_what_familywise_validate_prints() -> None:
+    # Source of the figures: the NIST StRD files shipped with scipy (see familywise.validation).
+    from familywise import validation
+
+    printed = validation.report(validation.run()).splitlines()
+    shown = tour.README.read_text(encoding="utf-8").split("`familywise validate` prints", 1)[1]
+    shown = shown.split("```text\n", 1)[1].split("\n```", 1)[0].splitlines()
+    assert len(shown) == len(printed)
+    for ours, theirs in zip(shown, printed, strict=True):
+        if theirs.startswith("source: "):  # the path of this machine's scipy installation
+            assert ours == "source: .../site-packages/scipy/stats/tests/data/nist_anova"
+            assert theirs.endswith("scipy/stats/tests/data/nist_anova")
+        else:
+            assert ours == theirs

@@ -103,6 +103,29 @@ def test_effect_size_definitions() -> None:
     assert r.effect_sizes.omega_squared == pytest.approx((ssb - 2 * msw) / (ssb + ssw + msw), rel=1e-13)
     eta2 = r.effect_sizes.eta_squared
     assert r.effect_sizes.cohens_f == pytest.approx(np.sqrt(eta2 / (1 - eta2)), rel=1e-14)
+    # Reference library: statsmodels' effect sizes from the F statistic and its df (eta², omega²).
+    from statsmodels.stats.oneway import _fstat2effectsize
+
+    theirs = _fstat2effectsize(r.anova.f, (2, 15))
+    assert r.effect_sizes.eta_squared == pytest.approx(theirs.eta2, rel=1e-12)
+    assert r.effect_sizes.omega_squared == pytest.approx(theirs.omega2, rel=1e-12)
+
+
+@pytest.mark.parametrize("seed", [3, 4, 5])
+def test_levene_from_exact_decimals_against_scipy(seed: int) -> None:
+    # Reference: scipy.stats.levene(center="median") on the same numbers (the service reads them as
+    # decimal text; the absolute deviations from the medians are then exact before rounding).
+    from decimal import Decimal
+
+    from familywise.stats.data import OneWayData
+
+    rng = np.random.default_rng(seed)
+    groups = [np.round(rng.normal(40.0 + i, 1.0 + 0.5 * i, n), 2) for i, n in enumerate((5, 8, 6, 7))]
+    data = OneWayData.from_decimals([f"g{i}" for i in range(4)], [[Decimal(repr(float(v))) for v in g] for g in groups])
+    ours = omnibus(data).levene
+    statistic, p = stats.levene(*groups, center="median")
+    assert ours.statistic == pytest.approx(statistic, rel=1e-10)
+    assert ours.p_value == pytest.approx(p, rel=1e-9)
 
 
 def test_group_summaries_and_t_interval() -> None:

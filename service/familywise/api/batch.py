@@ -94,12 +94,31 @@ def _run_chunk(chunk: list[tuple[int, dict[str, Any]]]) -> list[dict[str, Any]]:
 
 
 def _workers(configured: int) -> int:
+    """The pool's size: as configured, or the CPUs this process may use (its
+    affinity, and a container's CPU quota where the cgroup sets one)."""
     if configured > 0:
         return configured
     try:
-        return len(os.sched_getaffinity(0))
+        usable = len(os.sched_getaffinity(0))
     except AttributeError:  # pragma: no cover - not Linux
-        return os.cpu_count() or 1
+        usable = os.cpu_count() or 1
+    quota = cpu_quota()
+    return max(1, min(usable, quota)) if quota is not None else usable
+
+
+def cpu_quota(path: str = "/sys/fs/cgroup/cpu.max") -> int | None:
+    """The CPUs a cgroup v2 quota allows ("max" or no file: None), rounded up."""
+    try:
+        with open(path, encoding="ascii") as handle:
+            limit, period = handle.read().split()[:2]
+    except (OSError, ValueError):
+        return None
+    if limit == "max":
+        return None
+    try:
+        return max(1, -(-int(limit) // int(period)))
+    except (ValueError, ZeroDivisionError):
+        return None
 
 
 def _executor(workers: int) -> ProcessPoolExecutor:
