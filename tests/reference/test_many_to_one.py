@@ -196,21 +196,8 @@ def max_reference(c, lambdas, nu: float, alternative: str, upper: bool, rule: Ru
 
 
 def max_quantile_reference(alpha: float, lambdas, nu: float, alternative: str, start: float) -> float:
-    """c with P(max > c) = alpha on the reference (secant steps on log P against log c)."""
-    target = math.log(alpha)
-
-    def f(x):
-        return float(mp.log(max_reference(math.exp(x), lambdas, nu, alternative, True))) - target
-
-    x0, x1 = math.log(start), math.log(start) + 1e-3
-    f0, f1 = f(x0), f(x1)
-    for _ in range(12):
-        x2 = x1 - f1 * (x1 - x0) / (f1 - f0)
-        x0, f0, x1 = x1, f1, x2
-        if abs(x1 - x0) < 1e-13:
-            break
-        f1 = f(x1)
-    return math.exp(x1)
+    """c with P(max > c) = alpha on the reference."""
+    return ref.quantile_by_secant(lambda c: max_reference(c, lambdas, nu, alternative, True), alpha, start)
 
 
 # --------------------------------------------------------------------------

@@ -362,12 +362,12 @@ def range_reference(q, k: int, nu: float, upper: bool, rule: Rule = RULE):
     )
 
 
-def range_quantile_reference(alpha: float, k: int, nu: float, start: float) -> float:
-    """c with P(Q > c) = alpha on the reference: secant steps on log P against log c."""
+def quantile_by_secant(upper_tail, alpha: float, start: float) -> float:
+    """c with upper_tail(c) = alpha (an mpmath probability): secant steps on log P against log c."""
     target = math.log(alpha)
 
     def f(x):
-        return float(mp.log(range_reference(math.exp(x), k, nu, True))) - target
+        return float(mp.log(upper_tail(math.exp(x)))) - target
 
     x0, x1 = math.log(start), math.log(start) + 1e-3
     f0, f1 = f(x0), f(x1)
@@ -378,6 +378,11 @@ def range_quantile_reference(alpha: float, k: int, nu: float, start: float) -> f
             break
         f1 = f(x1)
     return math.exp(x1)
+
+
+def range_quantile_reference(alpha: float, k: int, nu: float, start: float) -> float:
+    """c with P(Q > c) = alpha on the reference."""
+    return quantile_by_secant(lambda c: range_reference(c, k, nu, True), alpha, start)
 
 
 # --------------------------------------------------------------------------

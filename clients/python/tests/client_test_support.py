@@ -7,13 +7,18 @@ received, for the retry tests.
 
 from __future__ import annotations
 
+import contextlib
 import http.server
 import importlib.util
 import json
+import os
 import socket
+import subprocess
 import sys
+import tempfile
 import threading
 import time
+from collections.abc import Iterator
 from dataclasses import dataclass, field
 from pathlib import Path
 from typing import Any
@@ -40,6 +45,39 @@ def server_command(port: int) -> list[str]:
     if script.exists():
         return [str(script), *serve]
     pytest.fail("the familywise service is not installed here (run `make install` in the checkout)")
+
+
+@contextlib.contextmanager
+def running_server(settings: dict[str, str]) -> Iterator[str]:
+    """A familywise server in a subprocess on a free loopback port, with these
+    FAMILYWISE_* settings added to the environment (and no API key unless
+    they give one); its base URL once GET /readyz answers 200. Stopped at the end."""
+    port = free_port()
+    env = {k: v for k, v in os.environ.items() if k != "FAMILYWISE_API_KEYS"} | settings
+    with tempfile.TemporaryFile() as log:
+        process = subprocess.Popen(server_command(port), stdout=log, stderr=subprocess.STDOUT, env=env)
+        base_url = f"http://127.0.0.1:{port}"
+        try:
+            deadline = time.monotonic() + READY_TIMEOUT_SECONDS
+            while True:
+                if process.poll() is not None:
+                    log.seek(0)
+                    pytest.fail(f"the familywise server exited with {process.returncode}:\n"
+                                f"{log.read().decode(errors='replace')[-3000:]}")
+                with contextlib.suppress(httpx.TransportError):
+                    if httpx.get(f"{base_url}/readyz", timeout=2.0).status_code == 200:
+                        break
+                if time.monotonic() > deadline:
+                    pytest.fail(f"the familywise server was not ready within {READY_TIMEOUT_SECONDS:g} s")
+                time.sleep(0.1)
+            yield base_url
+        finally:
+            process.terminate()
+            try:
+                process.wait(timeout=15)
+            except subprocess.TimeoutExpired:
+                process.kill()
+                process.wait(timeout=15)
 
 
 @dataclass(frozen=True)

@@ -11,16 +11,12 @@ worker thread alone takes longer); /v1/plan is always offloaded.
 from __future__ import annotations
 
 import asyncio
-import contextlib
-import os
-import subprocess
-import tempfile
 import time
 from collections.abc import Iterator
 
 import httpx
 import pytest
-from client_test_support import READY_TIMEOUT_SECONDS, free_port, server_command
+from client_test_support import running_server
 
 from familywise_client import AsyncClient, Client, FamilywiseConnectionError, FamilywiseError
 
@@ -30,33 +26,8 @@ PLAN = {"k": 4, "power": 0.8, "effect": {"cohens_f": 0.4}}
 @pytest.fixture(scope="module")
 def impatient_server() -> Iterator[str]:
     """A familywise server whose time limit every computation exceeds; its base URL."""
-    port = free_port()
-    env = {**os.environ, "FAMILYWISE_COMPUTE_TIMEOUT_SECONDS": "0.000001", "FAMILYWISE_WARM_UP": "0"}
-    env.pop("FAMILYWISE_API_KEYS", None)
-    with tempfile.TemporaryFile() as log:
-        process = subprocess.Popen(server_command(port), stdout=log, stderr=subprocess.STDOUT, env=env)
-        base_url = f"http://127.0.0.1:{port}"
-        try:
-            deadline = time.monotonic() + READY_TIMEOUT_SECONDS
-            while True:
-                if process.poll() is not None:
-                    log.seek(0)
-                    pytest.fail(f"the familywise server exited with {process.returncode}:\n"
-                                f"{log.read().decode(errors='replace')[-3000:]}")
-                with contextlib.suppress(httpx.TransportError):
-                    if httpx.get(f"{base_url}/readyz", timeout=2.0).status_code == 200:
-                        break
-                if time.monotonic() > deadline:
-                    pytest.fail(f"the familywise server was not ready within {READY_TIMEOUT_SECONDS:g} s")
-                time.sleep(0.1)
-            yield base_url
-        finally:
-            process.terminate()
-            try:
-                process.wait(timeout=15)
-            except subprocess.TimeoutExpired:
-                process.kill()
-                process.wait(timeout=15)
+    with running_server({"FAMILYWISE_COMPUTE_TIMEOUT_SECONDS": "0.000001", "FAMILYWISE_WARM_UP": "0"}) as base_url:
+        yield base_url
 
 
 def test_the_server_answers_a_computation_timeout(impatient_server: str) -> None:

@@ -56,32 +56,8 @@ def _refuse_constant(name: str) -> Any:
     raise ValueError(f"{name} is not a JSON number")
 
 
-def _depth_ok(text: str) -> bool:
-    """Cheap scan: bracket nesting never deeper than MAX_DEPTH (strings skipped)."""
-    depth = 0
-    in_string = False
-    escaped = False
-    for ch in text:
-        if in_string:
-            if escaped:
-                escaped = False
-            elif ch == "\\":
-                escaped = True
-            elif ch == '"':
-                in_string = False
-        elif ch == '"':
-            in_string = True
-        elif ch in "[{":
-            depth += 1
-            if depth > MAX_DEPTH:
-                return False
-        elif ch in "]}":
-            depth -= 1
-    return True
-
-
-def _where_constant(text: str) -> str:
-    """'line L, column C' of the first NaN or Infinity literal outside strings."""
+def _outside_strings(text: str):
+    """(index, character, line, column) of each character outside JSON strings."""
     in_string = escaped = False
     line, column = 1, 0
     for i, ch in enumerate(text):
@@ -97,7 +73,27 @@ def _where_constant(text: str) -> str:
                 in_string = False
         elif ch == '"':
             in_string = True
-        elif text.startswith(("NaN", "Infinity"), i):
+        else:
+            yield i, ch, line, column
+
+
+def _depth_ok(text: str) -> bool:
+    """Cheap scan: bracket nesting never deeper than MAX_DEPTH (strings skipped)."""
+    depth = 0
+    for _, ch, _, _ in _outside_strings(text):
+        if ch in "[{":
+            depth += 1
+            if depth > MAX_DEPTH:
+                return False
+        elif ch in "]}":
+            depth -= 1
+    return True
+
+
+def _where_constant(text: str) -> str:
+    """'line L, column C' of the first NaN or Infinity literal outside strings."""
+    for i, _, line, column in _outside_strings(text):
+        if text.startswith(("NaN", "Infinity"), i):
             return f"line {line}, column {column}"
     return "position unknown"
 

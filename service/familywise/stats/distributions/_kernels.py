@@ -516,6 +516,20 @@ def _max_log_sf_upper_tail(two_sided, lam, tau, mult, w):
     return best + math.log(acc)
 
 
+@njit(cache=True, inline="always")
+def _log_outside(two_sided, lam, w, z):
+    """log P(|Y| > w | Z0 = z) (two-sided) or log P(Y > w | Z0 = z), for
+    Y = lam Z0 + tau Z, relative-accurate however small."""
+    tau = math.sqrt(1.0 - lam * lam)
+    log_out = log_ndtr((lam * z - w) / tau)
+    if two_sided:
+        other = log_ndtr((-w - lam * z) / tau)
+        top = max(log_out, other)
+        if top > -math.inf:
+            log_out = top + math.log1p(math.exp(min(log_out, other) - top))
+    return log_out
+
+
 @njit(cache=True)
 def _max_adaptive_integrand(z, params):
     """log of phi(z) P(some |Y_i| > w | Z0 = z) (two-sided) or of
@@ -530,27 +544,11 @@ def _max_adaptive_integrand(z, params):
     u = int(params[2])
     largest = -math.inf
     for i in range(u):
-        lam = params[3 + i]
-        tau = math.sqrt(1.0 - lam * lam)
-        log_out = log_ndtr((lam * z - w) / tau)
-        if two_sided:
-            other = log_ndtr((-w - lam * z) / tau)
-            top = max(log_out, other)
-            if top > -math.inf:
-                log_out = top + math.log1p(math.exp(min(log_out, other) - top))
-        largest = max(largest, log_out)
+        largest = max(largest, _log_outside(two_sided, params[3 + i], w, z))
     if largest < -30.0:
         total = 0.0
         for i in range(u):
-            lam = params[3 + i]
-            tau = math.sqrt(1.0 - lam * lam)
-            log_out = log_ndtr((lam * z - w) / tau)
-            if two_sided:
-                other = log_ndtr((-w - lam * z) / tau)
-                top = max(log_out, other)
-                if top > -math.inf:
-                    log_out = top + math.log1p(math.exp(min(log_out, other) - top))
-            total += params[3 + u + i] * math.exp(log_out - largest)
+            total += params[3 + u + i] * math.exp(_log_outside(two_sided, params[3 + i], w, z) - largest)
         if total <= 0.0:
             return -math.inf
         return log_normal_pdf(z) + largest + math.log(total)
