@@ -153,6 +153,9 @@ def _load() -> str:
 
 
 def run(quick: bool = False) -> bool:
+    if not os.path.exists(WRK):
+        print("\nHTTP benchmarks: skipped, wrk is not installed (Debian: apt-get install wrk)")
+        return False
     seconds, warmup, repeats = (3.0, 1.0, 1) if quick else (8.0, 2.0, 5)
     print(f"HTTP benchmarks (issues 4 and 7): loopback, {os.cpu_count()} CPUs shared by client and server, "
           f"load average at start {_load()}")
