@@ -181,6 +181,49 @@ def test_a_batch_beyond_the_time_limit_is_a_503() -> None:
     assert "retry-after" in response.headers
 
 
+def test_long_computations_beyond_the_slots_are_refused_at_once() -> None:
+    """A thread that outlives the time limit keeps its slot until its work ends; with every slot taken, a
+    further long request is answered 503 at once (rule offload_slots), and is served again once they end."""
+    import asyncio
+    import threading
+
+    from familywise.api import routing
+    from familywise.api.problems import ProblemError
+
+    release = threading.Event()
+
+    async def blocked() -> str:
+        release.wait(timeout=30)  # blocks its own thread, as a long computation does
+        return "done"
+
+    async def quick() -> str:
+        return "done"
+
+    async def scenario() -> list[str]:
+        outcomes = []
+        for _ in range(routing.OFFLOAD_SLOTS):
+            try:
+                await routing._bounded(blocked(), 0.01)
+            except ProblemError as exc:
+                outcomes.append(exc.rule)
+        try:
+            await routing._bounded(quick(), 5.0)
+        except ProblemError as exc:
+            outcomes.append(exc.rule)
+        release.set()
+        for _ in range(200):  # the blocked threads end and free their slots
+            await asyncio.sleep(0.01)
+            try:
+                outcomes.append(await routing._bounded(quick(), 5.0))
+                break
+            except ProblemError:
+                continue
+        return outcomes
+
+    outcomes = asyncio.run(scenario())
+    assert outcomes == ["compute_timeout_seconds"] * routing.OFFLOAD_SLOTS + ["offload_slots", "done"]
+
+
 def test_small_requests_are_not_subject_to_the_thread_hop() -> None:
     """Requests within the inline sizes are computed at once, even under an absurdly small limit."""
     client = app_client(compute_timeout_seconds=1e-6)

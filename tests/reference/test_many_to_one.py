@@ -38,6 +38,7 @@ from familywise.stats.distributions import (
     many_to_one_cdf,
     many_to_one_isf,
     many_to_one_logsf,
+    many_to_one_ppf,
     many_to_one_sf,
 )
 from familywise.stats.distributions._tables import max_table
@@ -694,3 +695,23 @@ def test_bit_identical_in_a_fresh_process() -> None:
     ).stdout.split()
     assert out[0] == np.asarray(many_to_one_sf(DETERMINISM_C, lam, 12.0)).tobytes().hex()
     assert out[1] == np.float64(many_to_one_isf(0.05, lam, 12.0, "one_sided")).tobytes().hex()
+
+
+@pytest.mark.parametrize("p", [1e-6, 0.01, 0.3])
+@pytest.mark.parametrize("nu", [4.0, 30.0])
+def test_lower_quantile_of_one_comparison_is_student_t(p: float, nu: float) -> None:
+    # Source: exact, one comparison is Student's t: one-sided scipy.stats.t.ppf; two-sided
+    # P(|T| <= c) = I_x(1/2, nu/2) with x = c^2 / (nu + c^2) (the t distribution's relation to the
+    # beta; from memory), inverted by scipy.special.betaincinv (t.ppf(1/2 + p/2) loses digits near 1/2).
+    assert many_to_one_ppf(p, [0.6], nu, "one_sided") == pytest.approx(stats.t.ppf(p, nu), rel=1e-10)
+    x = special.betaincinv(0.5, nu / 2.0, p)
+    assert many_to_one_ppf(p, [0.6], nu, "two_sided") == pytest.approx(math.sqrt(nu * x / (1.0 - x)), rel=1e-9)
+
+
+@pytest.mark.parametrize("alternative", ALTERNATIVES)
+@pytest.mark.parametrize("p", [1e-6, 0.05, 0.4, 0.95])
+def test_quantile_inverts_the_cdf(alternative: str, p: float) -> None:
+    # Self-consistency (common practice, no source): P(max <= ppf(p)) = p, unequal design.
+    lam = LAMBDA_SETS["unequal5"]
+    c = many_to_one_ppf(p, lam, 12.0, alternative)
+    assert _cdf(c, lam, 12.0, alternative) == pytest.approx(p, rel=1e-8)

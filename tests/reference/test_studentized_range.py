@@ -49,6 +49,7 @@ from familywise.stats.distributions import (
     studentized_range_cdf,
     studentized_range_isf,
     studentized_range_logsf,
+    studentized_range_ppf,
     studentized_range_sf,
 )
 from familywise.stats.distributions._tables import range_table
@@ -861,3 +862,16 @@ def test_bit_identical_in_a_fresh_process() -> None:
     ).stdout.split()
     assert out[0] == np.asarray(studentized_range_sf(DETERMINISM_Q, 7, 2.5)).tobytes().hex()
     assert out[1] == np.float64(studentized_range_isf(0.05, 7, 2.5)).tobytes().hex()
+
+
+@pytest.mark.parametrize(("p", "k", "nu"), [(0.1, 4, 20.0), (0.01, 3, 8.0), (0.3, 10, 60.0), (0.7, 6, 15.0)])
+def test_lower_quantile_against_scipy(p: float, k: int, nu: float) -> None:
+    # Source: scipy.stats.studentized_range.ppf (any p, lower tail included).
+    assert studentized_range_ppf(p, k, nu) == pytest.approx(stats.studentized_range.ppf(p, k, nu), abs=1e-7)
+
+
+@pytest.mark.parametrize("p", [1e-8, 1e-3, 0.2, 0.5, 0.9, 1 - 1e-6])
+def test_quantile_inverts_the_cdf(p: float) -> None:
+    # Self-consistency (common practice, no source): P(Q <= ppf(p)) = p.
+    q = studentized_range_ppf(p, 5, 12.0)
+    assert _cdf(q, 5, 12.0) == pytest.approx(p, rel=1e-8)

@@ -42,6 +42,9 @@ CATALOGUE: dict[str, tuple[int, str, str]] = {
     "unanalysable-data": (422, "The data cannot be analysed this way",
                           "The numbers are well-formed but the method is undefined for them "
                           "(for example zero within-group variance)."),
+    "computation-busy": (503, "Too many long computations in progress",
+                         "This server worker is already running its share of long computations; the "
+                         "request was not started. Retry after the time Retry-After gives."),
     "computation-timeout": (503, "Computation took too long",
                             "The computation exceeded FAMILYWISE_COMPUTE_TIMEOUT_SECONDS; retry "
                             "later or split the request."),

@@ -9,6 +9,7 @@ model validation or computation.
 from __future__ import annotations
 
 import asyncio
+import threading
 import time
 import typing
 from collections.abc import Callable, Coroutine
@@ -170,15 +171,40 @@ def is_large(obj: Any, settings: Settings) -> bool:
     return isinstance(obj.get("items"), list)
 
 
+#: Long computations run in threads of their own. A thread that outlives the
+#: time limit cannot be stopped and finishes its work, so at most this many run
+#: at once in a server worker; a request beyond them is answered 503 at once
+#: (retry later) instead of queueing behind work whose callers have gone.
+OFFLOAD_SLOTS = 4
+_slots = threading.BoundedSemaphore(OFFLOAD_SLOTS)
+
+
+def _run_in_slot(work: Coroutine[Any, Any, Response]) -> Response:
+    try:
+        return asyncio.run(work)
+    finally:
+        _slots.release()
+
+
 async def _bounded(work: Coroutine[Any, Any, Response], limit: float) -> Response:
     """Run the endpoint's coroutine in a worker thread; answer 503 when it
-    exceeds the limit.
+    exceeds the limit, or when OFFLOAD_SLOTS long computations are already
+    running.
 
-    The thread cannot be stopped from outside and finishes its work, but the
-    worker process keeps answering other requests meanwhile.
+    The thread cannot be stopped from outside and finishes its work (its slot
+    is freed then), but the worker process keeps answering other requests
+    meanwhile.
     """
+    if not _slots.acquire(blocking=False):
+        work.close()
+        raise ProblemError(
+            "computation-busy",
+            f"{OFFLOAD_SLOTS} long computations are already running in this server worker; retry shortly",
+            rule="offload_slots", headers={"Retry-After": "5"},
+        )
+    future = asyncio.get_running_loop().run_in_executor(None, _run_in_slot, work)
     try:
-        return await asyncio.wait_for(asyncio.to_thread(asyncio.run, work), limit)
+        return await asyncio.wait_for(future, limit)
     except TimeoutError:
         raise ProblemError(
             "computation-timeout",

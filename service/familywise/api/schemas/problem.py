@@ -29,7 +29,8 @@ def problem_responses(*statuses: int) -> dict[int | str, dict]:
         413: "Body larger than the configured limit.",
         415: "Unsupported content type.",
         422: "Invalid input, a configured limit exceeded, or data the method cannot analyse.",
-        503: "The computation exceeded the configured time limit.",
+        503: "The computation exceeded the configured time limit, or the server worker is already running "
+             "its share of long computations (Retry-After says when to try again).",
     }
     return {
         status: {

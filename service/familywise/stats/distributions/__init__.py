@@ -12,6 +12,7 @@ from familywise.stats.distributions.many_to_one import (
     many_to_one_curve,
     many_to_one_isf,
     many_to_one_logsf,
+    many_to_one_ppf,
     many_to_one_sf,
 )
 from familywise.stats.distributions.studentized_range import (
@@ -19,6 +20,7 @@ from familywise.stats.distributions.studentized_range import (
     studentized_range_curve,
     studentized_range_isf,
     studentized_range_logsf,
+    studentized_range_ppf,
     studentized_range_sf,
 )
 
@@ -27,11 +29,13 @@ __all__ = [
     "many_to_one_curve",
     "many_to_one_isf",
     "many_to_one_logsf",
+    "many_to_one_ppf",
     "many_to_one_sf",
     "studentized_range_cdf",
     "studentized_range_curve",
     "studentized_range_isf",
     "studentized_range_logsf",
+    "studentized_range_ppf",
     "studentized_range_sf",
     "warm_up",
 ]

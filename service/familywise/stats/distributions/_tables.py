@@ -6,6 +6,7 @@ import math
 from functools import lru_cache
 
 import numpy as np
+from scipy import optimize
 
 from familywise.stats.distributions import _kernels as kernels
 
@@ -116,3 +117,26 @@ class TabulatedDistribution:
         if not 0.0 < alpha <= 0.5:
             raise ValueError("alpha must lie in (0, 0.5]")
         return float(kernels.curve_quantile(self._curve, self._table, self.df, self._median, math.log(alpha)))
+
+
+def lower_quantile(log_cdf, p: float, median: float, floor: float | None) -> float:
+    """c with P(M / s <= c) = p for p < 1/2: a bracketed root-finder
+    (scipy's brentq, to the last bits) on the log of the lower tail, which the
+    distribution code integrates directly (relative-accurate however small).
+    ``floor`` bounds c from below (0 for a maximum modulus); without one the
+    bracket is widened downwards by doubling."""
+    target = math.log(p)
+
+    def gap(c: float) -> float:
+        return float(log_cdf(c)) - target
+
+    hi = median
+    if floor is not None:
+        lo = floor
+    else:
+        lo = median - 1.0
+        while gap(lo) > 0.0:
+            lo = median - 2.0 * (median - lo)
+    if gap(lo) >= 0.0:
+        return lo
+    return float(optimize.brentq(gap, lo, hi, xtol=1e-300, rtol=4.0 * np.finfo(float).eps, maxiter=400))

@@ -52,7 +52,7 @@ from numpy.typing import ArrayLike
 from scipy import special
 
 from familywise.stats.distributions import _kernels as kernels
-from familywise.stats.distributions._tables import TabulatedDistribution, max_table, mixture_curve
+from familywise.stats.distributions._tables import TabulatedDistribution, lower_quantile, max_table, mixture_curve
 
 ALTERNATIVES = ("two_sided", "one_sided")
 
@@ -106,9 +106,16 @@ def _student_log_tails(c: np.ndarray, df: np.ndarray, two_sided: bool, upper: np
     """log P(|T| > c) or log P(T > c) and their complements for Student's t,
     keeping the quadrature's values where the tail leaves double range."""
     tail = special.stdtr(df, -np.abs(c) if two_sided else -c)
-    body = special.stdtr(df, c)
     p_upper = 2.0 * tail if two_sided else tail
-    p_lower = 1.0 - 2.0 * tail if two_sided else body
+    if two_sided:
+        # P(|T| <= c) = I_{c^2 / (nu + c^2)}(1/2, nu/2), erf(c / sqrt 2) at nu = infinity: no
+        # cancellation for small c, where 1 - 2 P(T > c) would lose the digits
+        with np.errstate(invalid="ignore", divide="ignore"):
+            x = np.where(np.isinf(df), 0.0, c * c / (df + c * c))
+            p_lower = np.where(np.isinf(df), special.erf(np.abs(c) / math.sqrt(2.0)),
+                               special.betainc(0.5, np.where(np.isinf(df), 1.0, df / 2.0), x))
+    else:
+        p_lower = special.stdtr(df, c)
     with np.errstate(divide="ignore"):
         exact_upper = np.where(p_upper > 1e-300, np.log(p_upper), upper)
         exact_lower = np.where(p_lower > 1e-300, np.log(p_lower), lower)
@@ -141,6 +148,19 @@ def many_to_one_isf(
     if np.size(lambdas) == 1:
         return _student_isf(alpha, df, alternative == "two_sided")
     return float(kernels.mixture_quantile(table, math.log(alpha), df, median, 40.0))
+
+
+def many_to_one_ppf(p: float, lambdas: ArrayLike, df: float, alternative: str = "two_sided") -> float:
+    """c with P(max |T_i| <= c) = p (two-sided) or P(max T_i <= c) = p, for any
+    0 < p < 1 (the lower tail by a bracketed root-finder on the directly
+    integrated cdf; one-sided, c may be negative)."""
+    if not 0.0 < p < 1.0:
+        raise ValueError("p must lie in (0, 1)")
+    if p >= 0.5:
+        return many_to_one_isf(1.0 - p, lambdas, df, alternative)
+    median = many_to_one_isf(0.5, lambdas, df, alternative)
+    floor = 0.0 if alternative == "two_sided" else None
+    return lower_quantile(lambda c: _log_tails(c, lambdas, df, alternative)[1], p, median, floor)
 
 
 def _student_isf(alpha: float, df: float, two_sided: bool) -> float:

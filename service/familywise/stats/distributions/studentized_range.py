@@ -37,7 +37,7 @@ import numpy as np
 from numpy.typing import ArrayLike
 
 from familywise.stats.distributions import _kernels as kernels
-from familywise.stats.distributions._tables import TabulatedDistribution, mixture_curve, range_table
+from familywise.stats.distributions._tables import TabulatedDistribution, lower_quantile, mixture_curve, range_table
 
 MAX_GROUPS = 1000
 
@@ -89,6 +89,17 @@ def studentized_range_isf(alpha: float, k: int, df: float) -> float:
         raise ValueError("alpha must lie in (0, 0.5]")
     table, median = range_table(int(k))
     return float(kernels.mixture_quantile(table, math.log(alpha), df, median, 64.0))
+
+
+def studentized_range_ppf(p: float, k: int, df: float) -> float:
+    """The quantile q with P(Q <= q) = p, for any 0 < p < 1 (the lower tail by
+    a bracketed root-finder on the directly integrated cdf)."""
+    if not 0.0 < p < 1.0:
+        raise ValueError("p must lie in (0, 1)")
+    if p >= 0.5:
+        return studentized_range_isf(1.0 - p, k, df)
+    median = studentized_range_isf(0.5, k, df)
+    return lower_quantile(lambda q: _log_tails(q, k, df)[1], p, median, 0.0)
 
 
 def studentized_range_curve(k: int, df: float) -> TabulatedDistribution:
