@@ -565,53 +565,72 @@ FAR_TAIL = 8.0
 
 
 @njit(cache=True)
+def _far_edges(two_sided, params, w):
+    """Panel edges for max_far_log_sf: half a unit apart across the window
+    [min lam_i w - 10, max lam_i w + 10] (from 0 when two-sided), and, where a
+    comparison's conditional excess P(Y_i > w | z) = Phi((lam_i z - w) / tau_i)
+    rises as a steep step (at z = w / lam_i, over a width s = tau_i / |lam_i|
+    below half a unit), 40 panels of width s / 2 across it."""
+    u = int(params[0])
+    lo = math.inf
+    hi = -math.inf
+    for i in range(u):
+        lam = abs(params[1 + i]) if two_sided else params[1 + i]
+        lo = min(lo, lam * w)
+        hi = max(hi, lam * w)
+    a = 0.0 if two_sided else lo - 10.0
+    b = hi + 10.0
+    n = math.ceil((b - a) / 0.5)
+    edges = np.empty(n + 1 + 41 * u)
+    edges[: n + 1] = a + (b - a) * np.arange(n + 1) / n
+    used = n + 1
+    for i in range(u):
+        lam = abs(params[1 + i]) if two_sided else params[1 + i]
+        if lam == 0.0:
+            continue
+        step = math.sqrt(1.0 - lam * lam) / abs(lam)
+        if step < 0.5:
+            fine = w / lam + step * np.linspace(-10.0, 10.0, 41)
+            edges[used : used + 41] = np.minimum(np.maximum(fine, a), b)
+            used += 41
+    return np.unique(edges[:used])
+
+
+@njit(cache=True)
 def max_far_log_sf(two_sided, params, w):
     """log P(max > w) for large w: composite Gauss-Kronrod over Z0.
 
     Given Z0 = z, comparison i exceeds w mostly when z is near lam_i w (its
     conditional mean lam_i z then reaches w at the cheapest cost), within a
-    few units of it: the window [min lam_i w - 10, max lam_i w + 10] holds all
-    but a negligible part (the integrand falls by e^-50 10 units away). The
-    integrand's narrowest feature has width about tau = sqrt(1 - lam^2) /
-    lam, so the panels are at most half that (and half a unit) wide: a fixed
+    few units of it, or, for lam_i close to 1, at the steep step of its
+    conditional excess near z = w / lam_i: the panels of _far_edges cover
+    both (the integrand falls by e^-50 ten units outside the window). A fixed
     rule, without adaptation, because this evaluation also fills the tables
     that the adaptive mixture integral reads (no recursion into it). The
     two-sided integrand is even in z: half the line, doubled.
     """
-    u = int(params[0])
-    lo = math.inf
-    hi = -math.inf
-    width = 0.5
-    for i in range(u):
-        lam = abs(params[1 + i]) if two_sided else params[1 + i]
-        lo = min(lo, lam * w)
-        hi = max(hi, lam * w)
-        if lam != 0.0:
-            width = min(width, 0.5 * math.sqrt(1.0 - lam * lam) / abs(lam))
     full = np.empty(params.size + 2)
     full[0] = 1.0 if two_sided else 0.0
     full[1] = w
     full[2:] = params
-    a = 0.0 if two_sided else lo - 10.0
-    b = hi + 10.0
-    n = math.ceil((b - a) / width)
-    h = (b - a) / n
+    edges = _far_edges(two_sided, params, w)
     shift = -math.inf
-    for i in range(4 * n + 1):
-        shift = max(shift, _max_adaptive_integrand(a + (b - a) * i / (4 * n), full))
+    for j in range(edges.size - 1):
+        shift = max(shift, _max_adaptive_integrand(edges[j], full),
+                    _max_adaptive_integrand(0.5 * (edges[j] + edges[j + 1]), full))
     if shift == -math.inf:
         return -math.inf
     fv1 = np.empty(10)
     fv2 = np.empty(10)
     total = 0.0
-    for p in range(n):
-        centre = a + (p + 0.5) * h
-        half = 0.5 * h
+    for j in range(edges.size - 1):
+        centre = 0.5 * (edges[j] + edges[j + 1])
+        half = 0.5 * (edges[j + 1] - edges[j])
         fc = math.exp(_max_adaptive_integrand(centre, full) - shift)
-        for j in range(10):
-            dx = half * _XGK[j]
-            fv1[j] = math.exp(_max_adaptive_integrand(centre - dx, full) - shift)
-            fv2[j] = math.exp(_max_adaptive_integrand(centre + dx, full) - shift)
+        for r in range(10):
+            dx = half * _XGK[r]
+            fv1[r] = math.exp(_max_adaptive_integrand(centre - dx, full) - shift)
+            fv2[r] = math.exp(_max_adaptive_integrand(centre + dx, full) - shift)
         total += _gk21_combine(fc, fv1, fv2, half)[0]
     if total <= 0.0:
         return -math.inf
