@@ -2,12 +2,22 @@
 
 from __future__ import annotations
 
+import os
+
 import numpy as np
 import pytest
 from fastapi.testclient import TestClient
+from hypothesis import settings
 
 from familywise.api.app import create_app
 from familywise.api.settings import Settings
+
+# Property tests draw the same examples on every run of `make test` (a fresh checkout in CI must not
+# pass or fail by chance); FAMILYWISE_HYPOTHESIS_PROFILE=explore draws new ones each run, to look for
+# bugs (with FAMILYWISE_PROPERTY_EXAMPLES for more of them).
+settings.register_profile("repeatable", derandomize=True, database=None)
+settings.register_profile("explore", derandomize=False)
+settings.load_profile(os.environ.get("FAMILYWISE_HYPOTHESIS_PROFILE", "repeatable"))
 
 
 @pytest.fixture(scope="session")
