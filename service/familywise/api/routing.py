@@ -9,6 +9,7 @@ model validation or computation.
 from __future__ import annotations
 
 import asyncio
+import contextvars
 import threading
 import time
 import typing
@@ -202,7 +203,9 @@ async def _bounded(work: Coroutine[Any, Any, Response], limit: float) -> Respons
             f"{OFFLOAD_SLOTS} long computations are already running in this server worker; retry shortly",
             rule="offload_slots", headers={"Retry-After": "5"},
         )
-    future = asyncio.get_running_loop().run_in_executor(None, _run_in_slot, work)
+    # the request's context variables go with it, as asyncio.to_thread would take them
+    context = contextvars.copy_context()
+    future = asyncio.get_running_loop().run_in_executor(None, context.run, _run_in_slot, work)
     try:
         return await asyncio.wait_for(future, limit)
     except TimeoutError:
