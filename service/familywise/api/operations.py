@@ -173,14 +173,7 @@ def _requested_followup(followup) -> tuple[str, dict[str, Any], Callable[[str], 
             fields["adjustment"] = method
     elif method is not None:
         fields["method"] = method
-    if family == "pairwise":
-        chosen = fields.get("method", PairwiseRequest.model_fields["method"].default)
-        if "dunn_adjustment" in fields and chosen != "dunn":
-            raise DataError("contradiction", f"dunn_adjustment applies to method 'dunn' only, and the method is "
-                            f"{chosen!r}: drop dunn_adjustment or set method to 'dunn'", "/followup/dunn_adjustment")
-        if fields.get("protected") and chosen != "lsd":
-            raise DataError("contradiction", f"protected applies to method 'lsd' only (Fisher's protected LSD), "
-                            f"and the method is {chosen!r}", "/followup/protected")
+    # pairwise options of another method (protected, dunn_adjustment) are refused by PairwiseRequest itself
 
     def where(pointer: str) -> str:
         if not pointer or pointer.strip("/").split("/")[0] in _SHARED_FIELDS:

@@ -167,19 +167,27 @@ class OneWayData:
             return np.array([float(sum((Decimal(c) * m for c, m in zip(row, exact, strict=True)), Decimal(0)))
                              for row in np.asarray(matrix, dtype=float).tolist()])
 
+    @cached_property
+    def _exact_sorted(self) -> tuple[list[Decimal], ...]:
+        """Each group's exact deviations in increasing order (requires exact data)."""
+        return tuple(sorted(e) for e in self.exact)
+
+    @cached_property
+    def exact_median_deviations(self) -> tuple[Decimal, ...] | None:
+        """Each group's median deviation in decimal (None for float data)."""
+        if self.exact is None:
+            return None
+        with localcontext(_WIDE):
+            return tuple(_median_of_sorted(ranked) for ranked in self._exact_sorted)
+
     def absolute_median_deviations(self) -> list[np.ndarray]:
         """|x - median| within each group, from the exact decimals when there
         are any (so that deviations equal in decimal are equal as floats)."""
         if self.exact is None:
             return [np.abs(d - np.median(d)) for d in self.deviations]
-        out = []
         with localcontext(_WIDE):
-            for exact in self.exact:
-                ranked = sorted(exact)
-                n = len(ranked)
-                median = ranked[n // 2] if n % 2 else (ranked[n // 2 - 1] + ranked[n // 2]) / 2
-                out.append(np.array([float(abs(v - median)) for v in exact]))
-        return out
+            return [np.array([float(abs(v - median)) for v in exact])
+                    for exact, median in zip(self.exact, self.exact_median_deviations, strict=True)]
 
     @cached_property
     def exact_order(self) -> np.ndarray | None:
@@ -187,10 +195,13 @@ class OneWayData:
         the exact decimals (None when the data came as floats)."""
         if self.exact is None:
             return None
+        centre = self.exact_centre
         order = np.empty((self.k, 4))
         with localcontext(_WIDE):
-            for g, (exact, dev) in enumerate(zip(self.exact, self.deviations, strict=True)):
-                order[g] = _exact_order(exact, dev.tolist(), self.exact_centre)
+            for g, (ranked, mean, median) in enumerate(zip(self._exact_sorted, self.exact_mean_deviations,
+                                                           self.exact_median_deviations, strict=True)):
+                order[g] = (float(centre + mean), float(centre + median), float(centre + ranked[0]),
+                            float(centre + ranked[-1]))
         return order
 
     @cached_property
@@ -285,16 +296,10 @@ def _check_shape(labels: Sequence[str], groups: Sequence[Sequence]) -> None:
             raise DataError("group-empty", "every group needs at least one value", f"/groups/{g}/values")
 
 
-def _exact_order(exact: list[Decimal], floats: list[float], centre: Decimal) -> tuple[float, ...]:
-    """Mean, median, minimum, maximum of one group, from its exact deviations
-    (call inside ``localcontext(_WIDE)``)."""
-    ranked = sorted(range(len(floats)), key=floats.__getitem__)
-    n = len(exact)
-    mean = centre + sum(exact, Decimal(0)) / n
-    middle = ranked[n // 2]
-    pair = exact[middle] if n % 2 else (exact[ranked[n // 2 - 1]] + exact[middle]) / 2
-    median = centre + pair
-    return float(mean), float(median), float(centre + exact[ranked[0]]), float(centre + exact[ranked[-1]])
+def _median_of_sorted(ranked: list[Decimal]) -> Decimal:
+    """The median of sorted decimals (call inside ``localcontext(_WIDE)``)."""
+    n = len(ranked)
+    return ranked[n // 2] if n % 2 else (ranked[n // 2 - 1] + ranked[n // 2]) / 2
 
 
 def _refuse_magnitude(groups: Sequence[Sequence[Decimal | int]]) -> None:

@@ -213,11 +213,11 @@ def levene_median(data: OneWayData) -> HypothesisTest | Unavailable:
     if all(np.ptp(z) == 0.0 for z in within):
         return Unavailable("within every group the absolute deviations from the median are equal")
     means = np.array([math.fsum(z) / z.size for z in within])
-    within_ss = math.fsum(math.fsum((z - m) ** 2) for z, m in zip(within, means, strict=True))
     df_between, df_within = data.k - 1.0, float(data.df_within)
     if np.ptp(means) == 0.0:
         statistic = 0.0
     else:
+        within_ss = math.fsum(math.fsum((z - m) ** 2) for z, m in zip(within, means, strict=True))
         grand = math.fsum(math.fsum(z) for z in within) / data.n_total
         between_ss = math.fsum(z.size * (m - grand) ** 2 for z, m in zip(within, means, strict=True))
         statistic = (between_ss / df_between) / (within_ss / df_within)

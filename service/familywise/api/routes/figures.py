@@ -21,7 +21,7 @@ from pydantic import ValidationError
 from familywise import __version__, figures
 from familywise.api import examples, operations
 from familywise.api.problems import ProblemError
-from familywise.api.routing import ACCEPTS_CSV, FamilywiseRoute, one_way_data
+from familywise.api.routing import ACCEPTS_CSV, OffloadedRoute, one_way_data
 from familywise.api.schemas.families import ContrastsRequest
 from familywise.api.schemas.figures import DifferencesFigureRequest, MeansFigureRequest
 from familywise.api.schemas.problem import STANDARD_REFUSALS
@@ -80,11 +80,9 @@ def negotiate(accept: str | None) -> str:
 FORMAT: ContextVar[str] = ContextVar("familywise_figure_format", default="svg")
 
 
-class FigureRoute(FamilywiseRoute):
-    """FamilywiseRoute that negotiates the figure's format before anything else,
-    and draws off the event loop (a figure takes a tenth of a second or more)."""
-
-    offload = True
+class FigureRoute(OffloadedRoute):
+    """A route that negotiates the figure's format before anything else, and
+    draws off the event loop (a figure takes a tenth of a second or more)."""
 
     def get_route_handler(self) -> Callable[[Request], Coroutine[Any, Any, Response]]:
         inner = super().get_route_handler()

@@ -57,7 +57,7 @@ from familywise.stats.distributions._tables import TabulatedDistribution, lower_
 ALTERNATIVES = ("two_sided", "one_sided")
 
 
-def _table(lambdas: ArrayLike, alternative: str) -> tuple[tuple, float]:
+def _validated(lambdas: ArrayLike, alternative: str) -> np.ndarray:
     lam = np.asarray(lambdas, dtype=float).ravel()
     if lam.size == 0:
         raise ValueError("at least one comparison is needed")
@@ -65,6 +65,11 @@ def _table(lambdas: ArrayLike, alternative: str) -> tuple[tuple, float]:
         raise ValueError("each lambda must satisfy |lambda| < 1")
     if alternative not in ALTERNATIVES:
         raise ValueError(f"alternative must be one of {ALTERNATIVES}")
+    return lam
+
+
+def _table(lambdas: ArrayLike, alternative: str) -> tuple[tuple, float]:
+    lam = _validated(lambdas, alternative)
     two_sided = alternative == "two_sided"
     if two_sided:
         # The two-sided probability depends on the lambdas only up to sign.
@@ -105,8 +110,7 @@ def _student_log_tails(c: np.ndarray, df: np.ndarray, two_sided: bool, upper: np
                        lower: np.ndarray) -> tuple[np.ndarray, np.ndarray]:
     """log P(|T| > c) or log P(T > c) and their complements for Student's t,
     keeping the quadrature's values where the tail leaves double range."""
-    tail = special.stdtr(df, -np.abs(c) if two_sided else -c)
-    p_upper = 2.0 * tail if two_sided else tail
+    p_upper = _student_sf(c, df, two_sided)
     if two_sided:
         # P(|T| <= c) = I_{c^2 / (nu + c^2)}(1/2, nu/2), erf(c / sqrt 2) at nu = infinity: no
         # cancellation for small c, where 1 - 2 P(T > c) would lose the digits
@@ -120,6 +124,12 @@ def _student_log_tails(c: np.ndarray, df: np.ndarray, two_sided: bool, upper: np
         exact_upper = np.where(p_upper > 1e-300, np.log(p_upper), upper)
         exact_lower = np.where(p_lower > 1e-300, np.log(p_lower), lower)
     return exact_upper, exact_lower
+
+
+def _student_sf(c: np.ndarray, df: np.ndarray | float, two_sided: bool) -> np.ndarray:
+    """P(|T| > c) or P(T > c) for Student's t (one comparison)."""
+    tail = special.stdtr(df, -np.abs(c) if two_sided else -c)
+    return 2.0 * tail if two_sided else tail
 
 
 def many_to_one_logsf(c: ArrayLike, lambdas: ArrayLike, df: ArrayLike, alternative: str = "two_sided") -> np.ndarray:
@@ -144,9 +154,9 @@ def many_to_one_isf(
     if not 0.0 < alpha <= 0.5:
         raise ValueError("alpha must lie in (0, 0.5]")
     df = float(_validate_df(df))
-    table, median = _table(lambdas, alternative)
-    if np.size(lambdas) == 1:
+    if _validated(lambdas, alternative).size == 1:  # Student's t: no table to build
         return _student_isf(alpha, df, alternative == "two_sided")
+    table, median = _table(lambdas, alternative)
     return float(kernels.mixture_quantile(table, math.log(alpha), df, median, 40.0))
 
 
@@ -195,8 +205,7 @@ class _SingleComparison:
         c = np.ascontiguousarray(np.atleast_1d(c), dtype=float)
         if self._two_sided:
             c = np.maximum(c, 0.0)
-        tail = special.stdtr(self.df, -np.abs(c) if self._two_sided else -c)
-        p = 2.0 * tail if self._two_sided else tail
+        p = _student_sf(c, self.df, self._two_sided)
         out = np.log(np.maximum(p, 1e-300))
         beyond = p <= 1e-300
         if np.any(beyond):
