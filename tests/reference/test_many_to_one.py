@@ -406,8 +406,7 @@ def _live_rows() -> list:
             for r in rows
             if r["set"] == name and r["alternative"] == alternative and r["df"] == nu and r["tail"] == tail
         ]
-        assert candidates, (LIVE_SUBSET, "not in the stored grid")
-        chosen.append(min(candidates, key=lambda r: float(r["sf"] if tail == "upper" else r["cdf"])))
+        chosen.append(ref.hardest(candidates, tail))
     return chosen
 
 

@@ -563,11 +563,14 @@ def _live_rows() -> list:
     rows = _stored("studentized_range")
     chosen = []
     for k, nu, tail in LIVE_SUBSET if not os.environ.get("FAMILYWISE_MAKING_REFERENCES") else []:
-        candidates = [r for r in rows if r["k"] == k and r["df"] == nu and r["tail"] == tail]
-        # the smallest stored tail probability of that kind: the hardest case
-        assert candidates, (LIVE_SUBSET, "not in the stored grid")
-        chosen.append(min(candidates, key=lambda r: float(r["sf"] if tail == "upper" else r["cdf"])))
+        chosen.append(hardest([r for r in rows if r["k"] == k and r["df"] == nu and r["tail"] == tail], tail))
     return chosen
+
+
+def hardest(candidates: list[dict], tail: str) -> dict:
+    """The stored row of the smallest tail probability among ``candidates``: the hardest case."""
+    assert candidates, (tail, "no such row in the stored grid")
+    return min(candidates, key=lambda r: float(r["sf"] if tail == "upper" else r["cdf"]))
 
 
 @pytest.mark.parametrize("row", _live_rows(), ids=_stored_id)
